@@ -1,0 +1,379 @@
+//! What each command does: check the settings, load the inputs, run the engine, write.
+//!
+//! Reads like a table of contents; the work is in the modules it calls.
+
+use crate::cli::{
+    Cli, Command, ConventionArg, CorrectArgs, DemoArgs, InnerModelArg, InputArgs, MethodArg,
+    PhysicsArgs, RunArgs,
+};
+use crate::dem::read::read_dem;
+use crate::dem::Dem;
+use crate::engine::{
+    count_disc, Convention, Engine, EngineConfig, InnerModel, Method, Point, StationResult,
+};
+use crate::output::{check_target, fixed, write_table, Table, Target};
+use crate::stations::{read_stations, ColumnChoice, StationTable};
+use crate::units::{format_length, parse_length_m, to_mgal};
+use anyhow::{bail, Context};
+use std::path::{Path, PathBuf};
+use std::time::Instant;
+
+/// Runs one command line.
+pub fn run(cli: Cli) -> anyhow::Result<()> {
+    match cli.command {
+        Command::Correct(args) => correct(&args),
+        Command::Demo(args) => demo(&args),
+    }
+}
+
+/// Checked physical and numerical settings.
+#[derive(Debug, Clone, Copy)]
+pub struct Settings {
+    pub engine: EngineConfig,
+    pub density_kg_m3: f64,
+    pub allow_gaps: bool,
+}
+
+/// Checks the density: positive, finite, and not a value in g/cm3 by mistake.
+pub fn check_density(value: f64, option: &str) -> anyhow::Result<f64> {
+    if !value.is_finite() || value <= 0.0 {
+        bail!("{option} {value}: a density must be a positive number; give kg/m3, e.g. 2670");
+    }
+    if value < 100.0 {
+        bail!("{option} {value}: this looks like g/cm3; give kg/m3, e.g. 2670");
+    }
+    if value > 25_000.0 {
+        bail!("{option} {value}: no rock is this dense; give kg/m3, e.g. 2670");
+    }
+    Ok(value)
+}
+
+/// Checks the outer radius: a positive length.
+pub fn check_radius(text: &str, option: &str) -> anyhow::Result<f64> {
+    let r = parse_length_m(text).map_err(|e| anyhow::anyhow!("{option}: {e}"))?;
+    if r <= 0.0 {
+        bail!("{option} {text}: the radius must be positive, e.g. 166.7km");
+    }
+    Ok(r)
+}
+
+impl Settings {
+    pub fn from_args(physics: &PhysicsArgs) -> anyhow::Result<Settings> {
+        let outer_radius_m = check_radius(&physics.outer_radius, "--outer-radius")?;
+        let density_kg_m3 = check_density(physics.density, "--density")?;
+        let convention = match physics.convention {
+            ConventionArg::Spherical => Convention::Spherical,
+            ConventionArg::Planar => Convention::Planar,
+        };
+        let method = match physics.method {
+            MethodArg::Exact => Method::Exact,
+        };
+        let inner_model = match physics.inner_model {
+            InnerModelArg::Prisms => InnerModel::Prisms,
+        };
+        Ok(Settings {
+            engine: EngineConfig {
+                outer_radius_m,
+                convention,
+                method,
+                inner_model,
+            },
+            density_kg_m3,
+            allow_gaps: physics.allow_gaps,
+        })
+    }
+}
+
+/// The loaded inputs of a run.
+pub struct Inputs {
+    pub dem: Dem,
+    pub stations: StationTable,
+}
+
+/// Reads the DEM and the station file.
+pub fn load_inputs(input: &InputArgs) -> anyhow::Result<Inputs> {
+    if input.dem.len() > 1 {
+        bail!(
+            "{} DEMs were given; nested DEMs are not supported yet: give one --dem",
+            input.dem.len()
+        );
+    }
+    let dem = read_dem(&input.dem[0])?;
+    let columns = ColumnChoice {
+        station: input.station_col.clone(),
+        x: input.x_col.clone(),
+        y: input.y_col.clone(),
+        elev: input.elev_col.clone(),
+    };
+    let stations = read_stations(
+        &input.stations,
+        &columns,
+        input.stations_crs.as_deref(),
+        &dem.crs_wkt,
+    )?;
+    Ok(Inputs { dem, stations })
+}
+
+/// Lists up to eight items and how many more there are.
+fn list_some(items: &[String]) -> String {
+    let shown: Vec<&str> = items.iter().take(8).map(String::as_str).collect();
+    let mut s = shown.join("; ");
+    if items.len() > 8 {
+        s.push_str(&format!("; and {} more", items.len() - 8));
+    }
+    s
+}
+
+/// Refuses stations off the DEM (or on its nodata), and stations whose disc reaches past
+/// the DEM or into nodata unless gaps are allowed.
+pub fn preflight(inputs: &Inputs, settings: &Settings) -> anyhow::Result<()> {
+    let dem = &inputs.dem;
+    let table = &inputs.stations;
+    let mut outside = Vec::new();
+    for s in &table.stations {
+        if !dem.contains(s.x, s.y) {
+            outside.push(format!(
+                "{} (line {}) is {} outside",
+                s.id,
+                s.line,
+                format_length(-dem.distance_inside(s.x, s.y))
+            ));
+        } else if dem.bilinear(s.x, s.y).is_none() {
+            outside.push(format!("{} (line {}) is on nodata", s.id, s.line));
+        }
+    }
+    if !outside.is_empty() {
+        bail!(
+            "{}: {} station(s) lie outside the data of {}: {}; check the coordinates and --stations-crs, or use a DEM that covers them",
+            table.path.display(),
+            outside.len(),
+            dem.source,
+            list_some(&outside)
+        );
+    }
+    if !settings.allow_gaps {
+        let radius = settings.engine.outer_radius_m;
+        let mut gaps = Vec::new();
+        for s in &table.stations {
+            let c = count_disc(dem, s.x, s.y, radius).coverage();
+            if c < 1.0 {
+                gaps.push(format!("{} coverage {:.4}", s.id, c));
+            }
+        }
+        if !gaps.is_empty() {
+            bail!(
+                "{} station(s) have their {} outer radius reaching past {} or into nodata ({}); use a larger DEM, a smaller --outer-radius, or --allow-gaps to accept this and report the coverage",
+                gaps.len(),
+                format_length(radius),
+                dem.source,
+                list_some(&gaps)
+            );
+        }
+    }
+    Ok(())
+}
+
+/// Runs `f` on a pool of `threads` workers (or rayon's default pool).
+pub fn with_threads<T: Send>(
+    threads: Option<usize>,
+    f: impl FnOnce() -> T + Send,
+) -> anyhow::Result<T> {
+    match threads {
+        None => Ok(f()),
+        Some(0) => bail!("--threads 0: give at least one thread"),
+        Some(n) => {
+            let pool = rayon::ThreadPoolBuilder::new()
+                .num_threads(n)
+                .build()
+                .context("cannot start the worker threads")?;
+            Ok(pool.install(f))
+        }
+    }
+}
+
+/// Computes every station of the inputs, with a progress bar.
+pub fn compute_stations(
+    inputs: &Inputs,
+    settings: &Settings,
+    run: &RunArgs,
+) -> anyhow::Result<Vec<StationResult>> {
+    let points: Vec<Point> = inputs
+        .stations
+        .stations
+        .iter()
+        .map(|s| Point {
+            x: s.x,
+            y: s.y,
+            elev: s.elev,
+        })
+        .collect();
+    let engine = Engine::new(&inputs.dem, settings.engine);
+    let bar = crate::progress::station_bar(points.len() as u64, run.quiet, "stations");
+    let results = with_threads(run.threads, || engine.compute_all(&points, &|| bar.inc(1)))?;
+    bar.finish_and_clear();
+    Ok(results)
+}
+
+/// The per-station table of `correct`.
+pub fn correction_table(
+    inputs: &Inputs,
+    settings: &Settings,
+    results: &[StationResult],
+) -> anyhow::Result<Table> {
+    let transformed = inputs.stations.input_crs.is_some();
+    let mut headers = vec!["station", "x", "y"];
+    if transformed {
+        headers.extend(["x_dem", "y_dem"]);
+    }
+    headers.extend([
+        "elev_m",
+        "dem_elev_m",
+        "elev_minus_dem_m",
+        "tc_mgal",
+        "coverage",
+    ]);
+    let mut table = Table::new(&headers);
+    for (s, r) in inputs.stations.stations.iter().zip(results) {
+        let what = |col: &str| format!("{col} of station {}", s.id);
+        let dem_elev = r
+            .dem_elev_m
+            .with_context(|| format!("station {} is on nodata of the DEM", s.id))?;
+        let tc = to_mgal(r.tc_m_s2(settings.density_kg_m3));
+        let mut row = vec![
+            s.id.clone(),
+            format_coord(s.input_xy.0),
+            format_coord(s.input_xy.1),
+        ];
+        if transformed {
+            row.push(fixed(s.x, 3, &what("x_dem"))?);
+            row.push(fixed(s.y, 3, &what("y_dem"))?);
+        }
+        row.push(fixed(s.elev, 3, &what("elev_m"))?);
+        row.push(fixed(dem_elev, 3, &what("dem_elev_m"))?);
+        row.push(fixed(s.elev - dem_elev, 3, &what("elev_minus_dem_m"))?);
+        row.push(fixed(tc, 4, &what("tc_mgal"))?);
+        row.push(fixed(r.coverage, 4, &what("coverage"))?);
+        table.rows.push(row);
+    }
+    Ok(table)
+}
+
+/// Coordinates as given: enough decimals for degrees and for metres.
+fn format_coord(v: f64) -> String {
+    let s = format!("{v:.8}");
+    let s = s.trim_end_matches('0');
+    s.trim_end_matches('.').to_string()
+}
+
+/// `ringsum correct`.
+fn correct(args: &CorrectArgs) -> anyhow::Result<()> {
+    let settings = Settings::from_args(&args.physics)?;
+    let target = check_target(&args.out)?;
+    let inputs = load_inputs(&args.input)?;
+    preflight(&inputs, &settings)?;
+    let started = Instant::now();
+    let results = compute_stations(&inputs, &settings, &args.run)?;
+    let table = correction_table(&inputs, &settings, &results)?;
+    write_table(&target, &table)?;
+    if !args.run.quiet {
+        summarise(&table, started.elapsed().as_secs_f64(), &target);
+    }
+    Ok(())
+}
+
+/// A few lines on stderr about a finished run.
+fn summarise(table: &Table, seconds: f64, target: &Target) {
+    let Some(col) = table.column("tc_mgal") else {
+        return;
+    };
+    let mut tcs: Vec<f64> = table
+        .rows
+        .iter()
+        .filter_map(|r| r[col].parse().ok())
+        .collect();
+    if tcs.is_empty() {
+        return;
+    }
+    tcs.sort_by(f64::total_cmp);
+    let where_to = match target {
+        Target::Stdout => "standard output".to_string(),
+        Target::Csv(p) => p.display().to_string(),
+    };
+    eprintln!(
+        "ringsum: {} stations in {:.2} s; tc_mgal min {:.4}, median {:.4}, max {:.4}; written to {}",
+        tcs.len(),
+        seconds,
+        tcs[0],
+        tcs[tcs.len() / 2],
+        tcs[tcs.len() - 1],
+        where_to
+    );
+}
+
+/// Finds the demo folder: the one given, ./demo-dem, or the source tree's.
+fn demo_folder(given: &Option<PathBuf>) -> anyhow::Result<PathBuf> {
+    if let Some(dir) = given {
+        if dir.is_dir() {
+            return Ok(dir.clone());
+        }
+        bail!(
+            "{}: no such folder; give the folder holding the demo scenario",
+            dir.display()
+        );
+    }
+    let here = PathBuf::from("demo-dem");
+    if here.is_dir() {
+        return Ok(here);
+    }
+    let shipped = Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-dem");
+    if shipped.is_dir() {
+        return Ok(shipped);
+    }
+    bail!(
+        "the demo scenario (demo-dem/) was not found; run from the source tree or give --data DIR"
+    )
+}
+
+/// Outer radius the demo uses with its single 30 m DEM (fits inside it for every station).
+pub const DEMO_OUTER_RADIUS: &str = "10km";
+
+/// `ringsum demo`.
+fn demo(args: &DemoArgs) -> anyhow::Result<()> {
+    let folder = demo_folder(&args.data)?;
+    if let Some(parent) = args.out.parent() {
+        if !parent.as_os_str().is_empty() {
+            std::fs::create_dir_all(parent)
+                .with_context(|| format!("{}: cannot create the folder", parent.display()))?;
+        }
+    }
+    let correct_args = CorrectArgs {
+        input: InputArgs {
+            dem: vec![folder.join("valley_30m.tif")],
+            stations: folder.join("stations.csv"),
+            stations_crs: None,
+            station_col: None,
+            x_col: None,
+            y_col: None,
+            elev_col: None,
+        },
+        physics: PhysicsArgs {
+            outer_radius: DEMO_OUTER_RADIUS.to_string(),
+            method: MethodArg::Exact,
+            inner_model: InnerModelArg::Prisms,
+            density: crate::units::STANDARD_DENSITY_KG_M3,
+            convention: ConventionArg::Spherical,
+            allow_gaps: false,
+        },
+        run: args.run.clone(),
+        out: args.out.clone(),
+    };
+    if !args.run.quiet {
+        eprintln!(
+            "ringsum demo: {} with {} stations, outer radius {}, exact prisms",
+            folder.join("valley_30m.tif").display(),
+            folder.join("stations.csv").display(),
+            DEMO_OUTER_RADIUS
+        );
+    }
+    correct(&correct_args)
+}

@@ -1,0 +1,179 @@
+//! The command line: clap definitions, one place for every flag's documentation.
+//!
+//! Values are checked and turned into typed settings in [`crate::app`]; nothing here
+//! touches files.
+
+use clap::{Args, Parser, Subcommand, ValueEnum};
+use std::path::PathBuf;
+
+const AFTER_HELP: &str = "\
+Exit status: 0 success; 1 the input or a result was refused (one sentence on stderr says
+why, and no output file is left behind); 2 the command line itself is wrong.
+
+Units: lengths take m or km (166.7km, 500m; a bare number is metres); density in kg/m3;
+corrections in mGal, positive where the terrain correction adds to gravity.";
+
+/// Gravity terrain corrections from elevation grids.
+#[derive(Debug, Parser)]
+#[command(name = "ringsum", version, about, long_about = None, after_help = AFTER_HELP, max_term_width = 100)]
+pub struct Cli {
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Per-station terrain correction from a DEM and a station file.
+    Correct(CorrectArgs),
+    /// Run the bundled invented scenario in demo-dem/ end to end and write its table.
+    Demo(DemoArgs),
+}
+
+/// How the Earth's shape enters (see the README, "Conventions").
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum ConventionArg {
+    /// Bouguer spherical cap to 166.7 km; terrain lowered by the curvature drop s^2/2R.
+    Spherical,
+    /// Infinite slab on a flat Earth (classical; for comparison with old surveys).
+    Planar,
+}
+
+/// How the topography is integrated.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum MethodArg {
+    /// Every DEM cell inside the outer radius is a prism (brute force; the reference).
+    /// For now the only method: the faster zoned engine is on its way.
+    Exact,
+}
+
+/// What the cells right around the station are.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum InnerModelArg {
+    /// Every cell, the station's own included, is a flat-topped prism. For now the only
+    /// choice; a continuous surface through the station comes with the zoned engine.
+    Prisms,
+}
+
+/// Where the DEM, the stations and their columns come from.
+#[derive(Debug, Clone, Args)]
+pub struct InputArgs {
+    /// DEM raster (GeoTIFF, ASCII grid or any single-band raster GDAL reads), north-up, in
+    /// a projected CRS in metres. Nodata is honoured.
+    #[arg(long, value_name = "PATH", required = true, help_heading = "Input")]
+    pub dem: Vec<PathBuf>,
+
+    /// Station file: CSV with a header. Columns are found by common names
+    /// (station/id/name, x/east/easting, y/north/northing, elev/elevation/z/h; lon/lat
+    /// imply EPSG:4326) or named with the --*-col options.
+    #[arg(long, value_name = "PATH", help_heading = "Input")]
+    pub stations: PathBuf,
+
+    /// CRS of the station coordinates (EPSG code such as EPSG:4326, or a PROJ string);
+    /// default: the DEM's CRS. Heights are used as given.
+    #[arg(long, value_name = "CRS", help_heading = "Input")]
+    pub stations_crs: Option<String>,
+
+    /// Name of the station-id column.
+    #[arg(long, value_name = "NAME", help_heading = "Input")]
+    pub station_col: Option<String>,
+    /// Name of the easting (or longitude) column.
+    #[arg(long, value_name = "NAME", help_heading = "Input")]
+    pub x_col: Option<String>,
+    /// Name of the northing (or latitude) column.
+    #[arg(long, value_name = "NAME", help_heading = "Input")]
+    pub y_col: Option<String>,
+    /// Name of the station-height column (m, same vertical datum as the DEM).
+    #[arg(long, value_name = "NAME", help_heading = "Input")]
+    pub elev_col: Option<String>,
+}
+
+/// The physics and numerics of the correction.
+#[derive(Debug, Clone, Args)]
+pub struct PhysicsArgs {
+    /// Outer radius of the correction (m or km).
+    #[arg(
+        long,
+        value_name = "LENGTH",
+        default_value = "166.7km",
+        help_heading = "Zones"
+    )]
+    pub outer_radius: String,
+
+    /// Integration method.
+    #[arg(long, value_enum, default_value_t = MethodArg::Exact, help_heading = "Zones")]
+    pub method: MethodArg,
+
+    /// Model of the cells around the station.
+    #[arg(long, value_enum, default_value_t = InnerModelArg::Prisms, help_heading = "Zones")]
+    pub inner_model: InnerModelArg,
+
+    /// Terrain density, kg/m3.
+    #[arg(
+        long,
+        value_name = "KG_M3",
+        default_value_t = 2670.0,
+        help_heading = "Physics"
+    )]
+    pub density: f64,
+
+    /// Earth model of the reduction.
+    #[arg(long, value_enum, default_value_t = ConventionArg::Spherical, help_heading = "Physics")]
+    pub convention: ConventionArg,
+
+    /// Accept stations whose outer radius reaches past the DEM or into nodata; their
+    /// coverage column says how much of the disc had data.
+    #[arg(long, help_heading = "Input")]
+    pub allow_gaps: bool,
+}
+
+/// Parallelism and progress.
+#[derive(Debug, Clone, Args)]
+pub struct RunArgs {
+    /// Worker threads (default: one per core).
+    #[arg(long, value_name = "N", help_heading = "Performance")]
+    pub threads: Option<usize>,
+
+    /// No progress bar or summary on stderr.
+    #[arg(long, short, help_heading = "Output")]
+    pub quiet: bool,
+}
+
+#[derive(Debug, Clone, Args)]
+pub struct CorrectArgs {
+    #[command(flatten)]
+    pub input: InputArgs,
+    #[command(flatten)]
+    pub physics: PhysicsArgs,
+    #[command(flatten)]
+    pub run: RunArgs,
+
+    /// Output table: a .csv path, or - for standard output. Written to a temporary file
+    /// and renamed, so a failed run leaves nothing behind.
+    #[arg(long, value_name = "PATH", help_heading = "Output")]
+    pub out: PathBuf,
+}
+
+#[derive(Debug, Clone, Args)]
+pub struct DemoArgs {
+    /// Folder holding the scenario (default: ./demo-dem, else the one shipped in the source tree).
+    #[arg(long, value_name = "DIR")]
+    pub data: Option<PathBuf>,
+
+    /// Where the demo writes its table.
+    #[arg(long, value_name = "PATH", default_value = "demo-out/tc.csv")]
+    pub out: PathBuf,
+
+    #[command(flatten)]
+    pub run: RunArgs,
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use clap::CommandFactory;
+
+    #[test]
+    fn clap_definition_is_consistent() {
+        Cli::command().debug_assert();
+    }
+}

@@ -1,0 +1,154 @@
+//! Reading a DEM with GDAL: the only place that opens rasters.
+
+use super::Dem;
+use gdal::Dataset;
+use std::path::Path;
+
+/// Why a DEM could not be used; each message is one sentence naming the file and what to do.
+#[derive(Debug, thiserror::Error)]
+pub enum DemError {
+    #[error("{path}: file not found; check the path given with --dem")]
+    NotFound { path: String },
+    #[error("{path}: GDAL cannot open it as a raster ({detail}); give a GeoTIFF, ASCII grid or another raster GDAL reads")]
+    Unreadable { path: String, detail: String },
+    #[error("{path}: the raster has {bands} bands; give a single-band elevation raster (e.g. extract one with gdal_translate -b 1)")]
+    Bands { path: String, bands: usize },
+    #[error(
+        "{path}: the raster has no georeferencing (no geotransform); give a georeferenced DEM"
+    )]
+    NoGeotransform { path: String },
+    #[error("{path}: the raster is rotated or sheared (geotransform terms {rot1}, {rot2}); rotated DEMs are not supported yet: warp it north-up with gdalwarp")]
+    Rotated { path: String, rot1: f64, rot2: f64 },
+    #[error(
+        "{path}: the raster is stored south-up or east-to-west; warp it north-up with gdalwarp"
+    )]
+    Flipped { path: String },
+    #[error("{path}: the DEM is in a geographic (longitude/latitude) CRS; geographic DEMs are not supported yet: warp it to a projected CRS in metres, e.g. gdalwarp -t_srs EPSG:326xx")]
+    Geographic { path: String },
+    #[error("{path}: the DEM has no coordinate reference system; assign one with gdal_edit.py -a_srs EPSG:xxxx")]
+    NoCrs { path: String },
+    #[error("{path}: the CRS's horizontal unit is {unit} ({factor} m), not metres; warp it to a CRS in metres")]
+    NotMetres {
+        path: String,
+        unit: String,
+        factor: f64,
+    },
+    #[error("{path}: heights are in unit '{unit}', which ringsum does not know; give heights in metres or feet")]
+    VerticalUnit { path: String, unit: String },
+    #[error("{path}: every cell is nodata; give a DEM with elevation values")]
+    AllNodata { path: String },
+    #[error("{path}: reading the raster failed ({detail})")]
+    Read { path: String, detail: String },
+}
+
+/// Metres per unit for the vertical units GDAL metadata may name.
+fn vertical_unit_factor(unit: &str) -> Option<f64> {
+    match unit.trim().to_ascii_lowercase().as_str() {
+        "" | "m" | "metre" | "meter" | "metres" | "meters" => Some(1.0),
+        "ft" | "foot" | "feet" | "international foot" => Some(0.3048),
+        "us-ft" | "ftus" | "us survey foot" | "foot_us" => Some(1200.0 / 3937.0),
+        _ => None,
+    }
+}
+
+/// Reads band 1 of a raster GDAL can open into a [`Dem`].
+///
+/// Nodata values (and NaN) become `NaN`; band scale and offset are applied, and heights
+/// in feet are converted to metres. The DEM must be north-up, unrotated and in a
+/// projected CRS whose unit is the metre.
+pub fn read_dem(path: &Path) -> Result<Dem, DemError> {
+    let p = path.display().to_string();
+    if !path.exists() {
+        return Err(DemError::NotFound { path: p });
+    }
+    let ds = Dataset::open(path).map_err(|e| DemError::Unreadable {
+        path: p.clone(),
+        detail: e.to_string(),
+    })?;
+    let bands = ds.raster_count();
+    if bands != 1 {
+        return Err(DemError::Bands { path: p, bands });
+    }
+    let gt = ds
+        .geo_transform()
+        .map_err(|_| DemError::NoGeotransform { path: p.clone() })?;
+    if gt == [0.0, 1.0, 0.0, 0.0, 0.0, 1.0] {
+        return Err(DemError::NoGeotransform { path: p });
+    }
+    if gt[2] != 0.0 || gt[4] != 0.0 {
+        return Err(DemError::Rotated {
+            path: p,
+            rot1: gt[2],
+            rot2: gt[4],
+        });
+    }
+    if gt[1] <= 0.0 || gt[5] >= 0.0 {
+        return Err(DemError::Flipped { path: p });
+    }
+    let srs = ds
+        .spatial_ref()
+        .map_err(|_| DemError::NoCrs { path: p.clone() })?;
+    if srs.is_geographic() {
+        return Err(DemError::Geographic { path: p });
+    }
+    if !srs.is_projected() {
+        return Err(DemError::NoCrs { path: p });
+    }
+    let factor = srs.linear_units();
+    if (factor - 1.0).abs() > 1e-9 {
+        return Err(DemError::NotMetres {
+            path: p,
+            unit: srs.linear_units_name().unwrap_or_else(|| "unknown".into()),
+            factor,
+        });
+    }
+    let crs_wkt = srs.to_wkt().unwrap_or_default();
+    let band = ds.rasterband(1).map_err(|e| DemError::Read {
+        path: p.clone(),
+        detail: e.to_string(),
+    })?;
+    let unit = band.unit();
+    let unit_factor = vertical_unit_factor(&unit).ok_or_else(|| DemError::VerticalUnit {
+        path: p.clone(),
+        unit,
+    })?;
+    let (cols, rows) = ds.raster_size();
+    let buffer = band
+        .read_as::<f64>((0, 0), (cols, rows), (cols, rows), None)
+        .map_err(|e| DemError::Read {
+            path: p.clone(),
+            detail: e.to_string(),
+        })?;
+    let nodata = band.no_data_value();
+    let scale = band.scale().unwrap_or(1.0);
+    let offset = band.offset().unwrap_or(0.0);
+    let (_, values) = buffer.into_shape_and_vec();
+    let heights: Vec<f32> = values
+        .into_iter()
+        .map(|v| {
+            let is_nodata = match nodata {
+                Some(nd) => v == nd || (nd.is_nan() && v.is_nan()),
+                None => false,
+            };
+            if is_nodata || !v.is_finite() {
+                f32::NAN
+            } else {
+                ((v * scale + offset) * unit_factor) as f32
+            }
+        })
+        .collect();
+    if heights.iter().all(|h| h.is_nan()) {
+        return Err(DemError::AllNodata { path: p });
+    }
+    Ok(Dem {
+        source: p,
+        cols,
+        rows,
+        x_left: gt[0],
+        y_top: gt[3],
+        dx: gt[1],
+        dy: -gt[5],
+        heights,
+        crs_wkt,
+    })
+}

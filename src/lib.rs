@@ -1,0 +1,20 @@
+//! ringsum: gravity terrain corrections from elevation grids.
+//!
+//! The library behind the `ringsum` command. Modules, from the physics up:
+//! - [`units`]: constants (G, mGal) and the length parser.
+//! - [`kernels`]: gravity of prisms, columns and ring sectors (pure functions).
+//! - [`dem`]: the elevation grid, its GDAL reader and writer.
+//! - [`stations`]: the station file and coordinate transformation (PROJ).
+//! - [`engine`]: per-station integration, parallel over stations.
+//! - [`output`]: the result table writers.
+//! - [`cli`] and [`app`]: the command line and what each command does.
+
+pub mod app;
+pub mod cli;
+pub mod dem;
+pub mod engine;
+pub mod kernels;
+pub mod output;
+pub mod progress;
+pub mod stations;
+pub mod units;

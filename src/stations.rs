@@ -1,0 +1,435 @@
+//! Station list: CSV reading, column detection and coordinate transformation (PROJ).
+//!
+//! The file needs a header. Columns are found by common names (case-insensitive) or named
+//! with options; the header `station,x,y,elev` works as is. Coordinates are taken to be in
+//! the DEM's CRS unless a station CRS is given; longitude/latitude columns (`lon`, `lat`)
+//! imply EPSG:4326. Heights are used as given: they must be on the DEM's vertical datum.
+
+use std::collections::HashMap;
+use std::path::{Path, PathBuf};
+
+/// Names tried, in order, for each needed column.
+pub const STATION_NAMES: &[&str] = &["station", "id", "name", "station_id", "stn"];
+/// Names tried for the easting.
+pub const X_NAMES: &[&str] = &["x", "east", "easting", "e"];
+/// Names tried for the northing.
+pub const Y_NAMES: &[&str] = &["y", "north", "northing", "n"];
+/// Names tried for the longitude (implies EPSG:4326 unless a CRS is given).
+pub const LON_NAMES: &[&str] = &["lon", "long", "longitude"];
+/// Names tried for the latitude.
+pub const LAT_NAMES: &[&str] = &["lat", "latitude"];
+/// Names tried for the station height.
+pub const ELEV_NAMES: &[&str] = &["elev", "elevation", "z", "h", "height", "elev_m"];
+
+/// Why the station file could not be used; one sentence each.
+#[derive(Debug, thiserror::Error)]
+pub enum StationError {
+    #[error("{path}: file not found; check the path given with --stations")]
+    NotFound { path: String },
+    #[error("{path}: cannot read it ({detail})")]
+    Unreadable { path: String, detail: String },
+    #[error("{path}: no column for {what} (looked for {tried}); columns found: {found}; name it with {option}")]
+    MissingColumn {
+        path: String,
+        what: &'static str,
+        tried: String,
+        found: String,
+        option: &'static str,
+    },
+    #[error("{path}: the column '{name}' given with {option} is not in the header; columns found: {found}")]
+    NamedColumnMissing {
+        path: String,
+        name: String,
+        option: &'static str,
+        found: String,
+    },
+    #[error("{path} line {line}: {detail}")]
+    Value {
+        path: String,
+        line: u64,
+        detail: String,
+    },
+    #[error("{path} line {line}: station {id} is listed twice (first on line {first}); give each station a unique id")]
+    Duplicate {
+        path: String,
+        line: u64,
+        id: String,
+        first: u64,
+    },
+    #[error("{path}: the file has a header but no stations")]
+    Empty { path: String },
+    #[error("{path}: {detail}")]
+    Crs { path: String, detail: String },
+}
+
+/// Column names given on the command line; `None` means "find it by its common names".
+#[derive(Debug, Clone, Default)]
+pub struct ColumnChoice {
+    pub station: Option<String>,
+    pub x: Option<String>,
+    pub y: Option<String>,
+    pub elev: Option<String>,
+}
+
+/// One station, with coordinates in the DEM's CRS.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Station {
+    /// Station id as written in the file.
+    pub id: String,
+    /// Easting in the DEM's CRS, m.
+    pub x: f64,
+    /// Northing in the DEM's CRS, m.
+    pub y: f64,
+    /// Station height as given (same vertical datum as the DEM), m.
+    pub elev: f64,
+    /// Line of the file the station came from (1 = header).
+    pub line: u64,
+    /// Coordinates as written in the file (before any transformation).
+    pub input_xy: (f64, f64),
+}
+
+/// The station file: stations plus every column, so other parts can read optional
+/// columns (observed gravity, density, legacy corrections) with the same error style.
+#[derive(Debug, Clone)]
+pub struct StationTable {
+    pub path: PathBuf,
+    pub headers: Vec<String>,
+    pub stations: Vec<Station>,
+    /// Raw fields of each station's row, in header order.
+    pub records: Vec<Vec<String>>,
+    /// CRS of the coordinates in the file (`None`: the DEM's).
+    pub input_crs: Option<String>,
+}
+
+impl StationTable {
+    /// Index of a column found by the given names (case-insensitive), or by the name the
+    /// user gave.
+    pub fn find_column(&self, names: &[&str]) -> Option<usize> {
+        find_column(&self.headers, names)
+    }
+
+    /// Index of a column named explicitly, with an error listing the columns if absent.
+    pub fn named_column(&self, name: &str, option: &'static str) -> Result<usize, StationError> {
+        find_column(&self.headers, &[name]).ok_or_else(|| StationError::NamedColumnMissing {
+            path: self.path.display().to_string(),
+            name: name.to_string(),
+            option,
+            found: self.headers.join(", "),
+        })
+    }
+
+    /// Parses column `col` of station `i` as a finite number; empty fields give `None`.
+    pub fn optional_number(&self, i: usize, col: usize) -> Result<Option<f64>, StationError> {
+        let text = self.records[i][col].trim();
+        if text.is_empty() {
+            return Ok(None);
+        }
+        parse_number(
+            &self.path,
+            self.stations[i].line,
+            &self.stations[i].id,
+            &self.headers[col],
+            text,
+        )
+        .map(Some)
+    }
+}
+
+fn find_column(headers: &[String], names: &[&str]) -> Option<usize> {
+    names.iter().find_map(|name| {
+        headers
+            .iter()
+            .position(|h| h.trim().eq_ignore_ascii_case(name.trim()))
+    })
+}
+
+/// Parses a finite number, or says on which line, for which station and column it fails.
+pub fn parse_number(
+    path: &Path,
+    line: u64,
+    id: &str,
+    column: &str,
+    text: &str,
+) -> Result<f64, StationError> {
+    let err = |what: String| StationError::Value {
+        path: path.display().to_string(),
+        line,
+        detail: format!("station {id}: {what}; fix the value or remove the station"),
+    };
+    let t = text.trim();
+    if t.is_empty() {
+        return Err(err(format!("column '{column}' is empty")));
+    }
+    match t.parse::<f64>() {
+        Ok(v) if v.is_finite() => Ok(v),
+        Ok(_) => Err(err(format!(
+            "column '{column}' is '{t}', not a finite number"
+        ))),
+        Err(_) => Err(err(format!("column '{column}' is '{t}', not a number"))),
+    }
+}
+
+/// Reads the station file.
+///
+/// `dem_crs_wkt` is the CRS the stations are converted to. `stations_crs` (EPSG code, PROJ
+/// string or WKT) names the CRS of the file's coordinates; without it, x/y columns are
+/// taken to be in the DEM's CRS and lon/lat columns in EPSG:4326.
+pub fn read_stations(
+    path: &Path,
+    columns: &ColumnChoice,
+    stations_crs: Option<&str>,
+    dem_crs_wkt: &str,
+) -> Result<StationTable, StationError> {
+    let p = path.display().to_string();
+    if !path.exists() {
+        return Err(StationError::NotFound { path: p });
+    }
+    let mut reader = csv::ReaderBuilder::new()
+        .flexible(false)
+        .trim(csv::Trim::All)
+        .from_path(path)
+        .map_err(|e| StationError::Unreadable {
+            path: p.clone(),
+            detail: e.to_string(),
+        })?;
+    let headers: Vec<String> = reader
+        .headers()
+        .map_err(|e| StationError::Unreadable {
+            path: p.clone(),
+            detail: e.to_string(),
+        })?
+        .iter()
+        .map(|h| h.trim_start_matches('\u{feff}').trim().to_string())
+        .collect();
+    let found = headers.join(", ");
+    let locate = |given: &Option<String>,
+                  names: &[&str],
+                  what: &'static str,
+                  option: &'static str|
+     -> Result<Option<usize>, StationError> {
+        match given {
+            Some(name) => find_column(&headers, &[name.as_str()])
+                .map(Some)
+                .ok_or_else(|| StationError::NamedColumnMissing {
+                    path: p.clone(),
+                    name: name.clone(),
+                    option,
+                    found: found.clone(),
+                }),
+            None => {
+                let _ = what;
+                Ok(find_column(&headers, names))
+            }
+        }
+    };
+    let missing =
+        |what: &'static str, names: &[&str], option: &'static str| StationError::MissingColumn {
+            path: p.clone(),
+            what,
+            tried: names.join(", "),
+            found: found.clone(),
+            option,
+        };
+    let id_col = locate(
+        &columns.station,
+        STATION_NAMES,
+        "the station id",
+        "--station-col",
+    )?
+    .ok_or_else(|| missing("the station id", STATION_NAMES, "--station-col"))?;
+    let elev_col = locate(
+        &columns.elev,
+        ELEV_NAMES,
+        "the station height",
+        "--elev-col",
+    )?
+    .ok_or_else(|| missing("the station height", ELEV_NAMES, "--elev-col"))?;
+    let mut x_col = locate(&columns.x, X_NAMES, "the easting", "--x-col")?;
+    let mut y_col = locate(&columns.y, Y_NAMES, "the northing", "--y-col")?;
+    let mut implied_crs = None;
+    if x_col.is_none() && y_col.is_none() {
+        let lon = find_column(&headers, LON_NAMES);
+        let lat = find_column(&headers, LAT_NAMES);
+        if let (Some(lon), Some(lat)) = (lon, lat) {
+            x_col = Some(lon);
+            y_col = Some(lat);
+            implied_crs = Some("EPSG:4326");
+        }
+    }
+    let x_col = x_col.ok_or_else(|| missing("the easting (or longitude)", X_NAMES, "--x-col"))?;
+    let y_col = y_col.ok_or_else(|| missing("the northing (or latitude)", Y_NAMES, "--y-col"))?;
+    let input_crs = stations_crs.or(implied_crs).map(str::to_string);
+
+    let mut stations = Vec::new();
+    let mut records = Vec::new();
+    let mut first_line: HashMap<String, u64> = HashMap::new();
+    for result in reader.records() {
+        let record = result.map_err(|e| {
+            let line = e.position().map(|pos| pos.line()).unwrap_or(0);
+            StationError::Value {
+                path: p.clone(),
+                line,
+                detail: format!(
+                    "the row cannot be read ({e}); every row needs as many fields as the header"
+                ),
+            }
+        })?;
+        let line = record.position().map(|pos| pos.line()).unwrap_or(0);
+        if record.iter().all(|f| f.trim().is_empty()) {
+            continue;
+        }
+        let id = record.get(id_col).unwrap_or("").trim().to_string();
+        if id.is_empty() {
+            return Err(StationError::Value {
+                path: p.clone(),
+                line,
+                detail: format!(
+                    "the station id (column '{}') is empty; give every station an id",
+                    headers[id_col]
+                ),
+            });
+        }
+        if let Some(&first) = first_line.get(&id) {
+            return Err(StationError::Duplicate {
+                path: p.clone(),
+                line,
+                id,
+                first,
+            });
+        }
+        first_line.insert(id.clone(), line);
+        let field = |col: usize| record.get(col).unwrap_or("");
+        let x = parse_number(path, line, &id, &headers[x_col], field(x_col))?;
+        let y = parse_number(path, line, &id, &headers[y_col], field(y_col))?;
+        let elev = parse_number(path, line, &id, &headers[elev_col], field(elev_col))?;
+        stations.push(Station {
+            id,
+            x,
+            y,
+            elev,
+            line,
+            input_xy: (x, y),
+        });
+        records.push(record.iter().map(str::to_string).collect());
+    }
+    if stations.is_empty() {
+        return Err(StationError::Empty { path: p });
+    }
+    if let Some(crs) = &input_crs {
+        transform_stations(&mut stations, crs, dem_crs_wkt).map_err(|detail| {
+            StationError::Crs {
+                path: p.clone(),
+                detail,
+            }
+        })?;
+    }
+    Ok(StationTable {
+        path: path.to_path_buf(),
+        headers,
+        stations,
+        records,
+        input_crs,
+    })
+}
+
+/// Converts station coordinates from `from` (EPSG code, PROJ string or WKT) to the DEM's CRS.
+fn transform_stations(stations: &mut [Station], from: &str, to_wkt: &str) -> Result<(), String> {
+    if to_wkt.is_empty() {
+        return Err(format!(
+            "the stations are in {from} but the DEM has no CRS to convert them to; give the DEM a CRS"
+        ));
+    }
+    let transform = proj::Proj::new_known_crs(from, to_wkt, None).map_err(|e| {
+        format!("PROJ cannot build a transformation from the station CRS '{from}' to the DEM's CRS ({e}); give an EPSG code such as EPSG:32633 or a valid PROJ string")
+    })?;
+    for s in stations.iter_mut() {
+        let (x, y) = transform.convert(s.input_xy).map_err(|e| {
+            format!(
+                "line {}: station {}: coordinates ({}, {}) cannot be converted from {from} ({e}); check the coordinates and the station CRS",
+                s.line, s.id, s.input_xy.0, s.input_xy.1
+            )
+        })?;
+        if !x.is_finite() || !y.is_finite() {
+            return Err(format!(
+                "line {}: station {}: coordinates ({}, {}) have no position in the DEM's CRS; check them and the station CRS",
+                s.line, s.id, s.input_xy.0, s.input_xy.1
+            ));
+        }
+        s.x = x;
+        s.y = y;
+    }
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use std::io::Write;
+
+    fn write(text: &str) -> tempfile::NamedTempFile {
+        let mut f = tempfile::NamedTempFile::new().unwrap();
+        f.write_all(text.as_bytes()).unwrap();
+        f
+    }
+
+    #[test]
+    fn plain_header_works() {
+        let f = write("station,x,y,elev\nA1,100,200,300.5\nA2,110,210,301\n");
+        let t = read_stations(f.path(), &ColumnChoice::default(), None, "").unwrap();
+        assert_eq!(t.stations.len(), 2);
+        assert_eq!(t.stations[0].id, "A1");
+        assert_eq!(t.stations[0].elev, 300.5);
+        assert_eq!(t.stations[1].line, 3);
+    }
+
+    #[test]
+    fn common_names_are_found_case_insensitively() {
+        let f = write("Name,Easting,Northing,Elevation,gravity\nB,1,2,3,978000\n");
+        let t = read_stations(f.path(), &ColumnChoice::default(), None, "").unwrap();
+        assert_eq!(t.stations[0].x, 1.0);
+        assert_eq!(t.stations[0].elev, 3.0);
+    }
+
+    #[test]
+    fn bad_values_name_the_line() {
+        let f = write("station,x,y,elev\nA,1,2,3\nB,1,2,abc\n");
+        let e = read_stations(f.path(), &ColumnChoice::default(), None, "")
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("line 3") && e.contains("station B") && e.contains("abc"),
+            "{e}"
+        );
+        let f = write("station,x,y,elev\nA,1,2,NaN\n");
+        let e = read_stations(f.path(), &ColumnChoice::default(), None, "")
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("not a finite number"), "{e}");
+        let f = write("station,x,y,elev\nA,1,,3\n");
+        let e = read_stations(f.path(), &ColumnChoice::default(), None, "")
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("'y' is empty"), "{e}");
+    }
+
+    #[test]
+    fn missing_column_lists_what_was_found() {
+        let f = write("station,x,y,height_above\nA,1,2,3\n");
+        let e = read_stations(f.path(), &ColumnChoice::default(), None, "")
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("columns found: station, x, y, height_above") && e.contains("--elev-col"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn duplicates_are_refused() {
+        let f = write("station,x,y,elev\nA,1,2,3\nB,1,2,3\nA,5,5,5\n");
+        let e = read_stations(f.path(), &ColumnChoice::default(), None, "")
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("line 4") && e.contains("first on line 2"), "{e}");
+    }
+}
