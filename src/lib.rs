@@ -16,5 +16,6 @@ pub mod engine;
 pub mod kernels;
 pub mod output;
 pub mod progress;
+pub mod reduce;
 pub mod stations;
 pub mod units;

@@ -5,6 +5,7 @@
 //! `[x_left + col*dx, x_left + (col+1)*dx] x [y_top - (row+1)*dy, y_top - row*dy]`, and
 //! its height is the DEM value at its centre; row 0 is the northern edge.
 
+pub mod pyramid;
 pub mod read;
 pub mod write;
 
