@@ -154,7 +154,7 @@ impl Pyramid {
         let top = top_level(dem.cols.max(dem.rows));
         if top >= 2 {
             levels.push(level_from_dem(dem, 2));
-            for level in 3..=top {
+            for _ in 3..=top {
                 let finer = levels.last().expect("a finer level");
                 levels.push(level_from_finer(finer, dem.dx, dem.dy));
             }
