@@ -4,7 +4,7 @@
 
 use crate::cli::{
     Cli, Command, ConventionArg, CorrectArgs, DemoArgs, InnerModelArg, InputArgs, MethodArg,
-    PhysicsArgs, RunArgs,
+    PhysicsArgs, PlanArgs, RunArgs,
 };
 use crate::dem::read::read_dem;
 use crate::dem::Dem;
@@ -14,6 +14,7 @@ use crate::engine::{
 use crate::output::{check_target, fixed, write_table, Table, Target};
 use crate::stations::{read_stations, ColumnChoice, StationTable};
 use crate::units::{format_length, parse_length_m, to_mgal};
+use crate::zones::{AutoSettings, RingMethod, ZoneGroup, ZonePlan};
 use anyhow::{bail, Context};
 use std::path::{Path, PathBuf};
 use std::time::Instant;
@@ -22,16 +23,26 @@ use std::time::Instant;
 pub fn run(cli: Cli) -> anyhow::Result<()> {
     match cli.command {
         Command::Correct(args) => correct(&args),
+        Command::Plan(args) => plan(&args),
         Command::Demo(args) => demo(&args),
     }
 }
 
+/// Which zone plan to use.
+#[derive(Debug, Clone, PartialEq)]
+pub enum ZonesChoice {
+    Auto,
+    Hammer,
+    File(PathBuf),
+}
+
 /// Checked physical and numerical settings.
-#[derive(Debug, Clone, Copy)]
+#[derive(Debug, Clone)]
 pub struct Settings {
     pub engine: EngineConfig,
     pub density_kg_m3: f64,
     pub allow_gaps: bool,
+    pub zones: ZonesChoice,
 }
 
 /// Checks the density: positive, finite, and not a value in g/cm3 by mistake.
@@ -66,10 +77,26 @@ impl Settings {
             ConventionArg::Planar => Convention::Planar,
         };
         let method = match physics.method {
+            MethodArg::Zoned => Method::Zoned,
             MethodArg::Exact => Method::Exact,
         };
         let inner_model = match physics.inner_model {
+            InnerModelArg::Surface => InnerModel::Surface,
             InnerModelArg::Prisms => InnerModel::Prisms,
+        };
+        let zones = match physics.zones.as_str() {
+            "auto" => ZonesChoice::Auto,
+            "hammer" => ZonesChoice::Hammer,
+            path => {
+                let path = PathBuf::from(path);
+                if !path.is_file() {
+                    bail!(
+                        "--zones {}: not auto, hammer, or an existing plan file; give one of these",
+                        path.display()
+                    );
+                }
+                ZonesChoice::File(path)
+            }
         };
         Ok(Settings {
             engine: EngineConfig {
@@ -80,6 +107,17 @@ impl Settings {
             },
             density_kg_m3,
             allow_gaps: physics.allow_gaps,
+            zones,
+        })
+    }
+
+    /// The zone plan for a DEM of cell size `cell_m`.
+    pub fn plan(&self, cell_m: f64) -> anyhow::Result<ZonePlan> {
+        let outer = self.engine.outer_radius_m;
+        Ok(match &self.zones {
+            ZonesChoice::Auto => ZonePlan::auto(cell_m, outer, &AutoSettings::default()),
+            ZonesChoice::Hammer => ZonePlan::hammer(outer),
+            ZonesChoice::File(path) => ZonePlan::from_file(path)?.fitted_to(outer)?,
         })
     }
 }
@@ -195,6 +233,7 @@ pub fn with_threads<T: Send>(
 pub fn compute_stations(
     inputs: &Inputs,
     settings: &Settings,
+    plan: &ZonePlan,
     run: &RunArgs,
 ) -> anyhow::Result<Vec<StationResult>> {
     let points: Vec<Point> = inputs
@@ -207,38 +246,84 @@ pub fn compute_stations(
             elev: s.elev,
         })
         .collect();
-    let engine = Engine::new(&inputs.dem, settings.engine);
+    let engine = Engine::new(&inputs.dem, settings.engine, plan.clone());
     let bar = crate::progress::station_bar(points.len() as u64, run.quiet, "stations");
     let results = with_threads(run.threads, || engine.compute_all(&points, &|| bar.inc(1)))?;
     bar.finish_and_clear();
     Ok(results)
 }
 
+/// Rounds `parts` to `decimals` so that the rounded parts add up to the rounded total
+/// exactly: the rounding difference (at most a few units of the last decimal) goes to
+/// the largest part.
+pub fn parts_adding_up(total: f64, parts: &[f64], decimals: i32) -> (f64, Vec<f64>) {
+    let scale = 10f64.powi(decimals);
+    let round = |v: f64| (v * scale).round();
+    let total_units = round(total);
+    let mut units: Vec<f64> = parts.iter().map(|&v| round(v)).collect();
+    let diff = total_units - units.iter().sum::<f64>();
+    if let Some(largest) =
+        (0..parts.len()).max_by(|&a, &b| parts[a].abs().total_cmp(&parts[b].abs()))
+    {
+        units[largest] += diff;
+    }
+    (
+        total_units / scale,
+        units.into_iter().map(|u| u / scale).collect(),
+    )
+}
+
+/// Summary zone columns of every table.
+pub const ZONE_COLUMNS: [&str; 4] = [
+    "tc_inner_mgal",
+    "tc_near_mgal",
+    "tc_mid_mgal",
+    "tc_far_mgal",
+];
+
 /// The per-station table of `correct`.
 pub fn correction_table(
     inputs: &Inputs,
     settings: &Settings,
+    plan: &ZonePlan,
     results: &[StationResult],
 ) -> anyhow::Result<Table> {
     let transformed = inputs.stations.input_crs.is_some();
-    let mut headers = vec!["station", "x", "y"];
+    let mut headers: Vec<String> = vec!["station".into(), "x".into(), "y".into()];
     if transformed {
-        headers.extend(["x_dem", "y_dem"]);
+        headers.extend(["x_dem".to_string(), "y_dem".to_string()]);
     }
-    headers.extend([
-        "elev_m",
-        "dem_elev_m",
-        "elev_minus_dem_m",
-        "tc_mgal",
-        "coverage",
-    ]);
-    let mut table = Table::new(&headers);
+    for h in ["elev_m", "dem_elev_m", "elev_minus_dem_m", "tc_mgal"]
+        .iter()
+        .chain(&ZONE_COLUMNS)
+    {
+        headers.push(h.to_string());
+    }
+    if plan.per_ring_columns {
+        headers.extend(plan.rings.iter().map(|r| format!("tc_{}_mgal", r.name)));
+    }
+    headers.push("coverage".to_string());
+    let mut table = Table {
+        headers,
+        rows: Vec::new(),
+    };
+    let scale = |k: f64| to_mgal(crate::units::G * settings.density_kg_m3 * k);
     for (s, r) in inputs.stations.stations.iter().zip(results) {
         let what = |col: &str| format!("{col} of station {}", s.id);
         let dem_elev = r
             .dem_elev_m
             .with_context(|| format!("station {} is on nodata of the DEM", s.id))?;
         let tc = to_mgal(r.tc_m_s2(settings.density_kg_m3));
+        let groups: Vec<f64> = [
+            ZoneGroup::Inner,
+            ZoneGroup::Near,
+            ZoneGroup::Middle,
+            ZoneGroup::Far,
+        ]
+        .iter()
+        .map(|&g| scale(r.group_m(plan, g)))
+        .collect();
+        let (tc_rounded, groups) = parts_adding_up(tc, &groups, 4);
         let mut row = vec![
             s.id.clone(),
             format_coord(s.input_xy.0),
@@ -251,7 +336,17 @@ pub fn correction_table(
         row.push(fixed(s.elev, 3, &what("elev_m"))?);
         row.push(fixed(dem_elev, 3, &what("dem_elev_m"))?);
         row.push(fixed(s.elev - dem_elev, 3, &what("elev_minus_dem_m"))?);
-        row.push(fixed(tc, 4, &what("tc_mgal"))?);
+        row.push(fixed(tc_rounded, 4, &what("tc_mgal"))?);
+        for (name, v) in ZONE_COLUMNS.iter().zip(&groups) {
+            row.push(fixed(*v, 4, &what(name))?);
+        }
+        if plan.per_ring_columns {
+            let rings: Vec<f64> = r.rings_m.iter().map(|&k| scale(k)).collect();
+            let (_, rings) = parts_adding_up(tc_rounded - groups[0], &rings, 4);
+            for (ring, v) in plan.rings.iter().zip(rings) {
+                row.push(fixed(v, 4, &what(&format!("tc_{}_mgal", ring.name)))?);
+            }
+        }
         row.push(fixed(r.coverage, 4, &what("coverage"))?);
         table.rows.push(row);
     }
@@ -270,10 +365,11 @@ fn correct(args: &CorrectArgs) -> anyhow::Result<()> {
     let settings = Settings::from_args(&args.physics)?;
     let target = check_target(&args.out)?;
     let inputs = load_inputs(&args.input)?;
+    let plan = settings.plan(inputs.dem.dx.max(inputs.dem.dy))?;
     preflight(&inputs, &settings)?;
     let started = Instant::now();
-    let results = compute_stations(&inputs, &settings, &args.run)?;
-    let table = correction_table(&inputs, &settings, &results)?;
+    let results = compute_stations(&inputs, &settings, &plan, &args.run)?;
+    let table = correction_table(&inputs, &settings, &plan, &results)?;
     write_table(&target, &table)?;
     if !args.run.quiet {
         summarise(&table, started.elapsed().as_secs_f64(), &target);
@@ -358,8 +454,9 @@ fn demo(args: &DemoArgs) -> anyhow::Result<()> {
         },
         physics: PhysicsArgs {
             outer_radius: DEMO_OUTER_RADIUS.to_string(),
-            method: MethodArg::Exact,
-            inner_model: InnerModelArg::Prisms,
+            method: MethodArg::Zoned,
+            inner_model: InnerModelArg::Surface,
+            zones: "auto".to_string(),
             density: crate::units::STANDARD_DENSITY_KG_M3,
             convention: ConventionArg::Spherical,
             allow_gaps: false,
@@ -369,11 +466,124 @@ fn demo(args: &DemoArgs) -> anyhow::Result<()> {
     };
     if !args.run.quiet {
         eprintln!(
-            "ringsum demo: {} with {} stations, outer radius {}, exact prisms",
+            "ringsum demo: {} with {} stations, outer radius {}, zoned engine",
             folder.join("valley_30m.tif").display(),
             folder.join("stations.csv").display(),
             DEMO_OUTER_RADIUS
         );
     }
     correct(&correct_args)
+}
+
+/// `ringsum plan`: the rings, and their cost measured on sample points of this DEM.
+fn plan(args: &PlanArgs) -> anyhow::Result<()> {
+    let settings = Settings::from_args(&args.physics)?;
+    if args.dem.len() > 1 {
+        bail!(
+            "{} DEMs were given; nested DEMs are not supported yet: give one --dem",
+            args.dem.len()
+        );
+    }
+    let dem = read_dem(&args.dem[0])?;
+    let cell = dem.dx.max(dem.dy);
+    let zone_plan = settings.plan(cell)?;
+    let points = sample_points(&dem, settings.engine.outer_radius_m);
+    let build_started = Instant::now();
+    let engine = Engine::new(&dem, settings.engine, zone_plan.clone());
+    let build_s = build_started.elapsed().as_secs_f64();
+    let started = Instant::now();
+    let results = with_threads(Some(1), || engine.compute_all(&points, &|| ()))?;
+    let per_station_s = started.elapsed().as_secs_f64() / points.len().max(1) as f64;
+    let n = results.len().max(1) as f64;
+    let mean =
+        |f: &dyn Fn(&StationResult) -> u64| results.iter().map(|r| f(r) as f64).sum::<f64>() / n;
+    let method = match settings.engine.method {
+        Method::Zoned => "zoned",
+        Method::Exact => "exact",
+    };
+    println!(
+        "ringsum plan: {} ({} x {} cells of {} m), outer radius {}, method {}, zones {}",
+        dem.source,
+        dem.cols,
+        dem.rows,
+        crate::units::format_length(cell).trim_end_matches('m'),
+        format_length(settings.engine.outer_radius_m),
+        method,
+        zone_plan.source
+    );
+    println!(
+        "{:<10} {:>10} {:>10}  {:<8} {:<28} {:>12}",
+        "ring", "inner", "outer", "method", "detail", "elements"
+    );
+    let inner_detail = match zone_plan.inner {
+        crate::zones::InnerZone::Cells { half_width } => {
+            format!("{0}x{0} cells", 2 * half_width + 1)
+        }
+        crate::zones::InnerZone::Disc { radius_m } => {
+            format!("disc of {}", format_length(radius_m))
+        }
+    };
+    let inner_method = match settings.engine.inner_model {
+        InnerModel::Surface => "surface",
+        InnerModel::Prisms => "prisms",
+    };
+    println!(
+        "{:<10} {:>10} {:>10}  {:<8} {:<28} {:>12.0}",
+        "inner",
+        "0m",
+        "",
+        inner_method,
+        inner_detail,
+        mean(&|r| r.inner_elements)
+    );
+    for (i, ring) in zone_plan.rings.iter().enumerate() {
+        let detail = match ring.method {
+            RingMethod::Prisms => format!("{} cells", crate::units::format_length(cell)),
+            RingMethod::Blocks { ratio } => format!("block side <= {ratio} x distance"),
+            RingMethod::Sectors { compartments } => format!("{compartments} compartments"),
+        };
+        println!(
+            "{:<10} {:>10} {:>10}  {:<8} {:<28} {:>12.0}",
+            ring.name,
+            format_length(ring.inner_m),
+            format_length(ring.outer_m),
+            ring.method.name(),
+            detail,
+            mean(&|r| r.ring_elements[i])
+        );
+    }
+    let total = mean(&|r| r.inner_elements + r.ring_elements.iter().sum::<u64>());
+    println!(
+        "per station: {total:.0} elements, {:.3} ms measured on {} sample points (one thread); setting up the engine took {:.2} s",
+        per_station_s * 1e3,
+        points.len(),
+        build_s
+    );
+    if let Some(pyr) = &engine.pyramid {
+        println!(
+            "memory: DEM {:.1} MB, block pyramid {:.1} MB",
+            (dem.len() * 4) as f64 / 1e6,
+            pyr.bytes() as f64 / 1e6
+        );
+    }
+    Ok(())
+}
+
+/// Up to 25 points on a grid over the part of the DEM where the outer radius fits (or
+/// over the whole DEM when it fits nowhere), at the DEM's height.
+fn sample_points(dem: &Dem, radius: f64) -> Vec<Point> {
+    let (w, h) = (dem.x_right() - dem.x_left, dem.y_top - dem.y_bottom());
+    let margin_x = radius.min(0.45 * w);
+    let margin_y = radius.min(0.45 * h);
+    let mut out = Vec::new();
+    for i in 0..5 {
+        for j in 0..5 {
+            let x = dem.x_left + margin_x + (w - 2.0 * margin_x) * (i as f64 + 0.5) / 5.0;
+            let y = dem.y_bottom() + margin_y + (h - 2.0 * margin_y) * (j as f64 + 0.5) / 5.0;
+            if let Some(elev) = dem.bilinear(x, y) {
+                out.push(Point { x, y, elev });
+            }
+        }
+    }
+    out
 }

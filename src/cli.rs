@@ -25,6 +25,8 @@ pub struct Cli {
 pub enum Command {
     /// Per-station terrain correction from a DEM and a station file.
     Correct(CorrectArgs),
+    /// Print the zone plan for a DEM and outer radius, with the measured cost per station.
+    Plan(PlanArgs),
     /// Run the bundled invented scenario in demo-dem/ end to end and write its table.
     Demo(DemoArgs),
 }
@@ -41,16 +43,22 @@ pub enum ConventionArg {
 /// How the topography is integrated.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
 pub enum MethodArg {
-    /// Every DEM cell inside the outer radius is a prism (brute force; the reference).
-    /// For now the only method: the faster zoned engine is on its way.
+    /// Inner zone, full-resolution prisms near, pyramid blocks in the middle, sectors far
+    /// (see `ringsum plan`); fast, with an error small against the DEM's own.
+    Zoned,
+    /// Every DEM cell inside the outer radius is a prism (brute force; the reference for
+    /// checking a few stations).
     Exact,
 }
 
 /// What the cells right around the station are.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
 pub enum InnerModelArg {
-    /// Every cell, the station's own included, is a flat-topped prism. For now the only
-    /// choice; a continuous surface through the station comes with the zoned engine.
+    /// A continuous surface through the station (the bilinear DEM shifted to the station
+    /// height, tapered back to the DEM at the inner zone's edge).
+    Surface,
+    /// Every cell, the station's own included, is a flat-topped prism (pure brute force,
+    /// comparable with any prism code).
     Prisms,
 }
 
@@ -100,12 +108,22 @@ pub struct PhysicsArgs {
     pub outer_radius: String,
 
     /// Integration method.
-    #[arg(long, value_enum, default_value_t = MethodArg::Exact, help_heading = "Zones")]
+    #[arg(long, value_enum, default_value_t = MethodArg::Zoned, help_heading = "Zones")]
     pub method: MethodArg,
 
-    /// Model of the cells around the station.
-    #[arg(long, value_enum, default_value_t = InnerModelArg::Prisms, help_heading = "Zones")]
+    /// Model of the cells around the station (both methods).
+    #[arg(long, value_enum, default_value_t = InnerModelArg::Surface, help_heading = "Zones")]
     pub inner_model: InnerModelArg,
+
+    /// Zone plan: auto (measured default), hammer (Hammer's 1939 zones B-M, then continued
+    /// to the outer radius, with a column per zone), or a FILE.toml plan (see the README).
+    #[arg(
+        long,
+        value_name = "auto|hammer|FILE",
+        default_value = "auto",
+        help_heading = "Zones"
+    )]
+    pub zones: String,
 
     /// Terrain density, kg/m3.
     #[arg(
@@ -151,6 +169,19 @@ pub struct CorrectArgs {
     /// and renamed, so a failed run leaves nothing behind.
     #[arg(long, value_name = "PATH", help_heading = "Output")]
     pub out: PathBuf,
+}
+
+#[derive(Debug, Clone, Args)]
+pub struct PlanArgs {
+    /// DEM raster (as for `correct`).
+    #[arg(long, value_name = "PATH", required = true, help_heading = "Input")]
+    pub dem: Vec<PathBuf>,
+
+    #[command(flatten)]
+    pub physics: PhysicsArgs,
+
+    #[command(flatten)]
+    pub run: RunArgs,
 }
 
 #[derive(Debug, Clone, Args)]

@@ -19,3 +19,4 @@ pub mod progress;
 pub mod reduce;
 pub mod stations;
 pub mod units;
+pub mod zones;

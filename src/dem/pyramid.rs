@@ -159,7 +159,11 @@ impl Pyramid {
                 levels.push(level_from_finer(finer, dem.dx, dem.dy));
             }
         }
-        Pyramid { levels, dx: dem.dx, dy: dem.dy }
+        Pyramid {
+            levels,
+            dx: dem.dx,
+            dy: dem.dy,
+        }
     }
 
     /// Highest level stored (1 when there is none).
@@ -221,7 +225,12 @@ fn level_from_dem(dem: &Dem, level: u32) -> Level {
         .into_par_iter()
         .flat_map_iter(|brow| (0..cols).map(move |bcol| block_from_dem(dem, level, bcol, brow)))
         .collect();
-    Level { level, cols, rows, blocks }
+    Level {
+        level,
+        cols,
+        rows,
+        blocks,
+    }
 }
 
 fn level_from_finer(finer: &Level, dx: f64, dy: f64) -> Level {
@@ -252,7 +261,12 @@ fn level_from_finer(finer: &Level, dx: f64, dy: f64) -> Level {
             })
         })
         .collect();
-    Level { level, cols, rows, blocks }
+    Level {
+        level,
+        cols,
+        rows,
+        blocks,
+    }
 }
 
 #[cfg(test)]
@@ -284,7 +298,12 @@ mod tests {
                     let close = |a: f32, b: f32, scale: f32| (a - b).abs() <= 2e-5 * scale.max(1.0);
                     assert_eq!(direct.n, built.n);
                     assert!(close(direct.h, built.h, direct.h.abs()));
-                    assert!(close(direct.hh, built.hh, direct.hh), "{} vs {}", direct.hh, built.hh);
+                    assert!(
+                        close(direct.hh, built.hh, direct.hh),
+                        "{} vs {}",
+                        direct.hh,
+                        built.hh
+                    );
                     assert!(close(direct.he, built.he, direct.he.abs().max(direct.hh)));
                     assert!(close(direct.ee, built.ee, direct.ee));
                     assert!(close(direct.ex, built.ex, 30.0));

@@ -1,0 +1,232 @@
+//! The exact method: every cell whose centre lies within the outer radius is a prism over
+//! its footprint between the station's level and the cell's height, both lowered by the
+//! curvature drop at the cell centre's distance in the spherical convention (SCIENCE.md
+//! section 6). Each cell's part goes to the plan ring holding its centre; the inner
+//! zone's cells (the cell square around the station) form the inner part, as prisms or,
+//! with the surface inner model, as the continuous surface of [`super::inner`].
+//!
+//! In the planar convention the prism corner terms at the station's own level (`u = 0`)
+//! are shared by the cells of a row: each node's term is computed once per row instead
+//! of once per cell corner (DESIGN.md, numerics).
+
+use super::{index_range, inner, CellBox, Engine, InnerModel, Parts, Point};
+use crate::kernels::prism::{footprint_phi, nagy_corner, CLOSED_FORM_MAX_RATIO};
+use crate::kernels::{prism_kernel, prism_kernel_closed_form};
+use crate::zones::InnerZone;
+
+/// Adds the exact method's parts for point `p`.
+pub fn exact_parts(engine: &Engine, p: Point, parts: &mut Parts) {
+    let dem = engine.dem;
+    let config = &engine.config;
+    let radius = config.outer_radius_m;
+    let r2max = radius * radius;
+    let curvature = config.convention.curvature();
+    let half_width = match engine.plan.inner {
+        InnerZone::Cells { half_width } => half_width,
+        InnerZone::Disc { .. } => 1,
+    };
+    let inner_box = CellBox::around(dem, p.x, p.y, half_width);
+    let surface = config.inner_model == InnerModel::Surface;
+    if surface {
+        parts.inner +=
+            inner::surface_square(dem, p, &inner_box, curvature, &mut parts.inner_elements);
+    }
+    let ring_outer2: Vec<f64> = engine
+        .plan
+        .rings
+        .iter()
+        .map(|r| r.outer_m * r.outer_m)
+        .collect();
+    let last_ring = ring_outer2.len().saturating_sub(1);
+    let ring_of = |s2: f64| ring_outer2.partition_point(|&o2| o2 <= s2).min(last_ring);
+
+    let (r_lo, r_hi) = index_range(-dem.y_top, dem.dy, -p.y, radius);
+    let r_lo = r_lo.max(0);
+    let r_hi = r_hi.min(dem.rows as i64 - 1);
+    let side = dem.dx.max(dem.dy);
+    let shared = curvature == 0.0;
+    let mut base_top: Vec<f64> = Vec::new();
+    let mut base_bottom: Vec<f64> = Vec::new();
+    for r in r_lo..=r_hi {
+        let row = r as usize;
+        let n_c = dem.row_center_y(row) - p.y;
+        let half = (r2max - n_c * n_c).max(0.0).sqrt();
+        let (c_lo, c_hi) = index_range(dem.x_left, dem.dx, p.x, half);
+        let c_lo = c_lo.max(0);
+        let c_hi = c_hi.min(dem.cols as i64 - 1);
+        if c_hi < c_lo {
+            continue;
+        }
+        let n1 = n_c - 0.5 * dem.dy;
+        let n2 = n_c + 0.5 * dem.dy;
+        let e_of = |c: usize| dem.x_left + c as f64 * dem.dx - p.x;
+        if shared {
+            // Node terms at u = 0 for the row's nodes near enough for the closed form.
+            let n_nodes = (c_hi - c_lo + 2) as usize;
+            base_top.clear();
+            base_bottom.clear();
+            base_top.resize(n_nodes, 0.0);
+            base_bottom.resize(n_nodes, 0.0);
+            let near_limit = CLOSED_FORM_MAX_RATIO * side + side;
+            for k in 0..n_nodes {
+                let e = e_of(c_lo as usize + k);
+                if e.hypot(n_c) < near_limit {
+                    base_top[k] = nagy_corner(e, n2, 0.0);
+                    base_bottom[k] = nagy_corner(e, n1, 0.0);
+                }
+            }
+        }
+        for c in c_lo as usize..=c_hi as usize {
+            let Some(h) = dem.height(c, row) else {
+                continue;
+            };
+            let e1 = e_of(c);
+            let e2 = e1 + dem.dx;
+            let e_c = 0.5 * (e1 + e2);
+            let s2 = e_c * e_c + n_c * n_c;
+            if s2 >= r2max {
+                continue;
+            }
+            let in_inner = inner_box.contains(c as i64, r);
+            if in_inner && surface {
+                continue;
+            }
+            let dh = h - p.elev;
+            if dh == 0.0 {
+                continue;
+            }
+            let drop = 0.5 * curvature * s2;
+            let u_ref = -drop;
+            let u_top = dh - drop;
+            let ratio = s2.sqrt() / side;
+            let k = if shared && ratio < CLOSED_FORM_MAX_RATIO {
+                let j = c - c_lo as usize;
+                let phi_ref = base_top[j + 1] - base_top[j] - base_bottom[j + 1] + base_bottom[j];
+                phi_ref - footprint_phi(e1, e2, n1, n2, u_top)
+            } else if ratio < CLOSED_FORM_MAX_RATIO {
+                prism_kernel_closed_form(e1, e2, n1, n2, u_ref, u_top)
+            } else {
+                prism_kernel(e1, e2, n1, n2, u_ref, u_top)
+            };
+            if in_inner {
+                parts.inner += k;
+                parts.inner_elements += 1;
+            } else {
+                parts.add(ring_of(s2), k);
+            }
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::dem::Dem;
+    use crate::engine::{Convention, EngineConfig, Method};
+    use crate::units::{to_mgal, EARTH_RADIUS_M, G};
+    use crate::zones::{AutoSettings, ZonePlan};
+
+    fn engine(dem: &Dem, radius: f64, convention: Convention) -> Engine<'_> {
+        let config = EngineConfig {
+            outer_radius_m: radius,
+            convention,
+            method: Method::Exact,
+            inner_model: InnerModel::Prisms,
+        };
+        Engine::new(
+            dem,
+            config,
+            ZonePlan::auto(dem.dx, radius, &AutoSettings::default()),
+        )
+    }
+
+    /// The same sum without the shared corner terms, prism by prism.
+    fn naive_sum(dem: &Dem, p: Point, radius: f64, curvature: f64) -> f64 {
+        let mut total = 0.0;
+        for row in 0..dem.rows {
+            for col in 0..dem.cols {
+                let Some(h) = dem.height(col, row) else {
+                    continue;
+                };
+                let e_c = dem.col_center_x(col) - p.x;
+                let n_c = dem.row_center_y(row) - p.y;
+                let s2 = e_c * e_c + n_c * n_c;
+                if s2 >= radius * radius {
+                    continue;
+                }
+                let d = 0.5 * curvature * s2;
+                total += prism_kernel(
+                    e_c - dem.dx / 2.0,
+                    e_c + dem.dx / 2.0,
+                    n_c - dem.dy / 2.0,
+                    n_c + dem.dy / 2.0,
+                    -d,
+                    h - p.elev - d,
+                );
+            }
+        }
+        total
+    }
+
+    #[test]
+    fn shared_corner_terms_change_nothing() {
+        let dem = Dem::from_fn("rough", 60, 50, 0.0, 1500.0, 30.0, |x, y| {
+            500.0 + 80.0 * (x / 170.0).sin() * (y / 230.0).cos() + 0.05 * x
+        });
+        for p in [
+            Point {
+                x: 900.0,
+                y: 750.0,
+                elev: 520.0,
+            },
+            Point {
+                x: 915.0,
+                y: 735.0,
+                elev: 480.0,
+            },
+            Point {
+                x: 901.3,
+                y: 748.2,
+                elev: 555.5,
+            },
+        ] {
+            for (conv, curv) in [
+                (Convention::Planar, 0.0),
+                (Convention::Spherical, 1.0 / EARTH_RADIUS_M),
+            ] {
+                let fast = engine(&dem, 700.0, conv).compute(p).kernel_sum_m();
+                let slow = naive_sum(&dem, p, 700.0, curv);
+                assert!(((fast - slow) / slow).abs() < 1e-12, "{fast} vs {slow}");
+            }
+        }
+    }
+
+    #[test]
+    fn flat_plain_gives_zero() {
+        let dem = Dem::from_fn("flat", 40, 40, 0.0, 400.0, 10.0, |_, _| 250.0);
+        let p = Point {
+            x: 200.0,
+            y: 200.0,
+            elev: 250.0,
+        };
+        for conv in [Convention::Planar, Convention::Spherical] {
+            assert_eq!(engine(&dem, 150.0, conv).compute(p).kernel_sum_m(), 0.0);
+        }
+    }
+
+    #[test]
+    fn slab_under_a_station_in_a_pit() {
+        // A station 1 m above a wide plain: the missing 1 m slab gives 2 pi G rho h
+        // (0.1119688 mGal at 2670 kg/m3; SCIENCE.md section 1) up to the cylinder's h/a.
+        let dem = Dem::from_fn("plain", 400, 400, -20_000.0, 20_000.0, 100.0, |_, _| 0.0);
+        let p = Point {
+            x: 50.0,
+            y: 50.0,
+            elev: 1.0,
+        };
+        let k = engine(&dem, 19_000.0, Convention::Planar)
+            .compute(p)
+            .kernel_sum_m();
+        assert!((to_mgal(G * 2670.0 * k) - 0.111_968_8).abs() < 1e-4);
+    }
+}

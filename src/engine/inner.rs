@@ -1,0 +1,374 @@
+//! The inner zone: the few cells around the station.
+//!
+//! Flat-topped cells put a step of (cell height - station height) right under the
+//! station; on steep ground with the station off a DEM node that alone is worth up to
+//! about 1 mGal of spurious correction (SCIENCE.md section 7, cone test). The surface
+//! inner model replaces them with a continuous surface through the station:
+//!
+//! ```text
+//! z(e, n) = B(e, n) + (h_s - B(0, 0)) w - h_s,     w = 1 - rho / rho_max(theta)
+//! ```
+//!
+//! where `B` is the bilinear DEM surface through the cell centres, `h_s` the station
+//! height and `rho_max(theta)` the distance to the zone's edge along azimuth `theta`: the
+//! shift is tapered to zero at the edge, where the surface meets the DEM. The surface is
+//! integrated by polar quadrature of the column kernel (SCIENCE.md section 2):
+//!
+//! ```text
+//! k = int_0^{2 pi} dtheta int_0^{rho_max(theta)} rho c(rho, -d(rho), z - d(rho)) drho,
+//! rho c(rho, 0, z) = 1 - rho / sqrt(rho^2 + z^2)
+//! ```
+//!
+//! which is exact for any surface (no column approximation: the vertical integral is
+//! closed-form, the horizontal one numerical). Angles are split into panels at the
+//! directions of the zone's corners and of the bilinear surface's nodes, rays into
+//! segments where they cross the surface's kink lines, and each piece is integrated by
+//! Gauss-Legendre quadrature; next to the station, where the integrand changes over a
+//! length of the order of the station's offset from the DEM, the first segment is graded
+//! geometrically.
+
+use super::{CellBox, Point};
+use crate::dem::Dem;
+use crate::kernels::column_kernel;
+use crate::kernels::prism_kernel;
+use std::f64::consts::PI;
+
+/// Gauss-Legendre nodes and weights on [-1, 1], 8 points.
+const GAUSS_8: [(f64, f64); 8] = [
+    (-0.960_289_856_497_536_3, 0.101_228_536_290_376_3),
+    (-0.796_666_477_413_626_7, 0.222_381_034_453_374_5),
+    (-0.525_532_409_916_329, 0.313_706_645_877_887_3),
+    (-0.183_434_642_495_649_8, 0.362_683_783_378_362),
+    (0.183_434_642_495_649_8, 0.362_683_783_378_362),
+    (0.525_532_409_916_329, 0.313_706_645_877_887_3),
+    (0.796_666_477_413_626_7, 0.222_381_034_453_374_5),
+    (0.960_289_856_497_536_3, 0.101_228_536_290_376_3),
+];
+
+/// Flat-topped prisms for the cells of the inner box (the `prisms` inner model).
+pub fn prisms_in_box(
+    dem: &Dem,
+    p: Point,
+    cells: &CellBox,
+    curvature: f64,
+    outer_m: f64,
+    elements: &mut u64,
+) -> f64 {
+    let mut total = 0.0;
+    for row in cells.row_lo.max(0)..=cells.row_hi.min(dem.rows as i64 - 1) {
+        for col in cells.col_lo.max(0)..=cells.col_hi.min(dem.cols as i64 - 1) {
+            let (c, r) = (col as usize, row as usize);
+            let Some(h) = dem.height(c, r) else { continue };
+            let e_c = dem.col_center_x(c) - p.x;
+            let n_c = dem.row_center_y(r) - p.y;
+            let s2 = e_c * e_c + n_c * n_c;
+            if s2 >= outer_m * outer_m {
+                continue;
+            }
+            let d = 0.5 * curvature * s2;
+            total += prism_kernel(
+                e_c - 0.5 * dem.dx,
+                e_c + 0.5 * dem.dx,
+                n_c - 0.5 * dem.dy,
+                n_c + 0.5 * dem.dy,
+                -d,
+                h - p.elev - d,
+            );
+            *elements += 1;
+        }
+    }
+    total
+}
+
+/// Geometry of a star-shaped inner region around the station.
+struct Region<'a> {
+    dem: &'a Dem,
+    p: Point,
+    /// Station height minus the DEM surface at the station, m.
+    shift: f64,
+    curvature: f64,
+    /// Relative eastings of the kink lines (cell-centre columns) crossing the region.
+    lines_e: Vec<f64>,
+    /// Relative northings of the kink lines (cell-centre rows).
+    lines_n: Vec<f64>,
+}
+
+impl Region<'_> {
+    /// Integrand `rho c(rho, u_ref, u_top)` at distance `rho` along unit direction `(ce, cn)`.
+    #[inline]
+    fn integrand(&self, rho: f64, ce: f64, cn: f64, rho_max: f64) -> f64 {
+        let Some(b) = self.dem.bilinear(self.p.x + rho * ce, self.p.y + rho * cn) else {
+            return 0.0;
+        };
+        let z = b + self.shift * (1.0 - rho / rho_max) - self.p.elev;
+        let drop = 0.5 * self.curvature * rho * rho;
+        rho * column_kernel(rho, -drop, z - drop)
+    }
+
+    /// Integral along one ray from 0 to `rho_max`.
+    fn ray(&self, ce: f64, cn: f64, rho_max: f64, evaluations: &mut u64) -> f64 {
+        let mut breaks = vec![0.0, rho_max];
+        for &e in &self.lines_e {
+            if ce.abs() > 1e-15 {
+                let t = e / ce;
+                if t > 0.0 && t < rho_max {
+                    breaks.push(t);
+                }
+            }
+        }
+        for &n in &self.lines_n {
+            if cn.abs() > 1e-15 {
+                let t = n / cn;
+                if t > 0.0 && t < rho_max {
+                    breaks.push(t);
+                }
+            }
+        }
+        // Grade the start: the integrand varies over a length of the order of the shift.
+        let scale = self.shift.abs().max(1e-3 * rho_max);
+        let mut g = 0.25 * scale;
+        while g < rho_max {
+            breaks.push(g);
+            g *= 4.0;
+        }
+        breaks.sort_by(f64::total_cmp);
+        breaks.dedup_by(|a, b| (*a - *b).abs() < 1e-12 * rho_max);
+        let mut sum = 0.0;
+        for w in breaks.windows(2) {
+            let (a, b) = (w[0], w[1]);
+            let half = 0.5 * (b - a);
+            let mid = 0.5 * (a + b);
+            for &(x, wt) in &GAUSS_8 {
+                sum += wt * half * self.integrand(mid + half * x, ce, cn, rho_max);
+            }
+            *evaluations += GAUSS_8.len() as u64;
+        }
+        sum
+    }
+
+    /// Integral over all azimuths, panels split at `critical` angles.
+    fn integrate(
+        &self,
+        rho_max: &dyn Fn(f64, f64) -> f64,
+        mut critical: Vec<f64>,
+        evaluations: &mut u64,
+    ) -> f64 {
+        critical
+            .iter_mut()
+            .for_each(|a| *a = a.rem_euclid(2.0 * PI));
+        // At least 8 panels so that smooth regions are also well resolved.
+        for k in 0..8 {
+            critical.push(k as f64 * PI / 4.0);
+        }
+        critical.sort_by(f64::total_cmp);
+        critical.dedup_by(|a, b| (*a - *b).abs() < 1e-12);
+        critical.push(critical[0] + 2.0 * PI);
+        let mut total = 0.0;
+        for w in critical.windows(2) {
+            let (a, b) = (w[0], w[1]);
+            let half = 0.5 * (b - a);
+            let mid = 0.5 * (a + b);
+            for &(x, wt) in &GAUSS_8 {
+                let theta = mid + half * x;
+                let (cn, ce) = theta.sin_cos();
+                total += wt * half * self.ray(ce, cn, rho_max(ce, cn), evaluations);
+            }
+        }
+        total
+    }
+}
+
+/// Kink lines of the bilinear surface (cell-centre lines) within `[lo, hi]` of relative
+/// easting (or northing when `northing` is set).
+fn centre_lines(dem: &Dem, p: Point, lo: f64, hi: f64, northing: bool) -> Vec<f64> {
+    let mut out = Vec::new();
+    if northing {
+        let first = ((dem.y_top - (p.y + hi)) / dem.dy - 0.5).floor() as i64;
+        let last = ((dem.y_top - (p.y + lo)) / dem.dy - 0.5).ceil() as i64;
+        for r in first..=last {
+            let n = dem.y_top - (r as f64 + 0.5) * dem.dy - p.y;
+            if n > lo && n < hi {
+                out.push(n);
+            }
+        }
+    } else {
+        let first = ((p.x + lo - dem.x_left) / dem.dx - 0.5).floor() as i64;
+        let last = ((p.x + hi - dem.x_left) / dem.dx - 0.5).ceil() as i64;
+        for c in first..=last {
+            let e = dem.x_left + (c as f64 + 0.5) * dem.dx - p.x;
+            if e > lo && e < hi {
+                out.push(e);
+            }
+        }
+    }
+    out
+}
+
+/// Directions to the surface's nodes (crossings of kink lines) other than the station.
+fn node_angles(lines_e: &[f64], lines_n: &[f64]) -> Vec<f64> {
+    let mut out = Vec::new();
+    for &e in lines_e {
+        for &n in lines_n {
+            if e.hypot(n) > 1e-9 {
+                out.push(n.atan2(e));
+            }
+        }
+    }
+    out
+}
+
+/// The surface inner model over the cell box around the station.
+pub fn surface_square(
+    dem: &Dem,
+    p: Point,
+    cells: &CellBox,
+    curvature: f64,
+    evaluations: &mut u64,
+) -> f64 {
+    let Some(b0) = dem.bilinear(p.x, p.y) else {
+        return 0.0;
+    };
+    let e_min = dem.x_left + cells.col_lo as f64 * dem.dx - p.x;
+    let e_max = dem.x_left + (cells.col_hi + 1) as f64 * dem.dx - p.x;
+    let n_max = dem.y_top - cells.row_lo as f64 * dem.dy - p.y;
+    let n_min = dem.y_top - (cells.row_hi + 1) as f64 * dem.dy - p.y;
+    let lines_e = centre_lines(dem, p, e_min, e_max, false);
+    let lines_n = centre_lines(dem, p, n_min, n_max, true);
+    let mut critical = node_angles(&lines_e, &lines_n);
+    for (e, n) in [
+        (e_min, n_min),
+        (e_max, n_min),
+        (e_max, n_max),
+        (e_min, n_max),
+    ] {
+        critical.push(n.atan2(e));
+    }
+    let region = Region {
+        dem,
+        p,
+        shift: p.elev - b0,
+        curvature,
+        lines_e,
+        lines_n,
+    };
+    let rho_max = |ce: f64, cn: f64| {
+        let te = if ce > 0.0 {
+            e_max / ce
+        } else if ce < 0.0 {
+            e_min / ce
+        } else {
+            f64::INFINITY
+        };
+        let tn = if cn > 0.0 {
+            n_max / cn
+        } else if cn < 0.0 {
+            n_min / cn
+        } else {
+            f64::INFINITY
+        };
+        te.min(tn)
+    };
+    region.integrate(&rho_max, critical, evaluations)
+}
+
+/// The surface inner model over a disc of radius `radius_m` around the station.
+pub fn surface_disc(
+    dem: &Dem,
+    p: Point,
+    radius_m: f64,
+    curvature: f64,
+    evaluations: &mut u64,
+) -> f64 {
+    let Some(b0) = dem.bilinear(p.x, p.y) else {
+        return 0.0;
+    };
+    let lines_e = centre_lines(dem, p, -radius_m, radius_m, false);
+    let lines_n = centre_lines(dem, p, -radius_m, radius_m, true);
+    let critical = node_angles(&lines_e, &lines_n)
+        .into_iter()
+        .collect::<Vec<_>>();
+    let region = Region {
+        dem,
+        p,
+        shift: p.elev - b0,
+        curvature,
+        lines_e,
+        lines_n,
+    };
+    region.integrate(&|_, _| radius_m, critical, evaluations)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Exact kernel of an inclined plane through the station over a star-shaped region:
+    /// on azimuth phi the profile is a straight line of slope tan(a) cos(phi - phi0), so
+    /// the ray integral is rho_max (1 - 1/sqrt(1 + t^2)) (SCIENCE.md section 7).
+    fn plane_region_kernel(slope: f64, azimuth: f64, rho_max: &dyn Fn(f64) -> f64) -> f64 {
+        let n = 200_000;
+        let mut sum = 0.0;
+        for k in 0..n {
+            let theta = (k as f64 + 0.5) * 2.0 * PI / n as f64;
+            let t = slope * (theta - azimuth).cos();
+            sum += rho_max(theta) * (1.0 - 1.0 / (1.0 + t * t).sqrt());
+        }
+        sum * 2.0 * PI / n as f64
+    }
+
+    #[test]
+    fn surface_meets_the_inclined_plane_exactly() {
+        // A plane of slope 30 degrees dipping to azimuth 20 degrees, sampled as a DEM; the
+        // station on the plane, off the nodes. The surface model is exact for a plane (the
+        // plane passes near 0 so that the DEM's f32 heights keep 1e-7 m).
+        let (tan_a, az) = (30f64.to_radians().tan(), 20f64.to_radians());
+        let (ge, gn) = (tan_a * az.cos(), tan_a * az.sin());
+        let dem = Dem::from_fn("plane", 40, 40, 0.0, 1200.0, 30.0, |x, y| {
+            ge * (x - 600.0) + gn * (y - 600.0)
+        });
+        let p = Point {
+            x: 611.3,
+            y: 587.9,
+            elev: ge * 11.3 + gn * -12.1,
+        };
+        let cells = CellBox::around(&dem, p.x, p.y, 1);
+        let mut evals = 0;
+        let k = surface_square(&dem, p, &cells, 0.0, &mut evals);
+        let e_min = dem.x_left + cells.col_lo as f64 * dem.dx - p.x;
+        let e_max = dem.x_left + (cells.col_hi + 1) as f64 * dem.dx - p.x;
+        let n_max = dem.y_top - cells.row_lo as f64 * dem.dy - p.y;
+        let n_min = dem.y_top - (cells.row_hi + 1) as f64 * dem.dy - p.y;
+        let rho_max = |t: f64| {
+            let (s, c) = t.sin_cos();
+            let te = if c > 0.0 { e_max / c } else { e_min / c };
+            let tn = if s > 0.0 { n_max / s } else { n_min / s };
+            te.min(tn)
+        };
+        let exact = plane_region_kernel(tan_a, az, &rho_max);
+        assert!(((k - exact) / exact).abs() < 1e-6, "{k} vs {exact}");
+        // The disc form against the closed form G rho R [2 pi - 4 cos a K(sin^2 a)]
+        // (SCIENCE.md section 7), here as the direct integral.
+        let k = surface_disc(&dem, p, 25.0, 0.0, &mut evals);
+        let exact = plane_region_kernel(tan_a, az, &|_| 25.0);
+        assert!(((k - exact) / exact).abs() < 1e-6, "{k} vs {exact}");
+    }
+
+    #[test]
+    fn station_above_a_flat_surface_sees_the_missing_disc() {
+        // Station 2 m above a flat DEM: the tapered surface is a cone from the station down
+        // to the DEM at the edge of a disc of radius R. For a cone of slope t = 2/R the
+        // exact kernel is 2 pi R (1 - 1/sqrt(1 + t^2)) (SCIENCE.md section 7, cone).
+        let dem = Dem::from_fn("flat", 20, 20, 0.0, 200.0, 10.0, |_, _| 100.0);
+        let p = Point {
+            x: 101.0,
+            y: 97.0,
+            elev: 102.0,
+        };
+        let mut evals = 0;
+        let r = 25.0;
+        let k = surface_disc(&dem, p, r, 0.0, &mut evals);
+        let t: f64 = 2.0 / r;
+        let exact = 2.0 * PI * r * (1.0 - 1.0 / (1.0 + t * t).sqrt());
+        assert!(((k - exact) / exact).abs() < 1e-6, "{k} vs {exact}");
+    }
+}

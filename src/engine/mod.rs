@@ -1,0 +1,391 @@
+//! The terrain-correction engine: integrates the topography around each station, zone by
+//! zone, and runs the stations in parallel.
+//!
+//! Everything here works in SI units and station-centred coordinates (easting, northing,
+//! upward; the station at the origin). A station's result is a sum of kernels (m, see
+//! [`crate::kernels`]) that [`StationResult::tc_m_s2`] turns into an acceleration with
+//! `G rho`: for a constant density the correction is exactly linear in it.
+//!
+//! Two methods share the zone plan's bookkeeping:
+//! - [`Method::Exact`]: every DEM cell within the outer radius is a full-resolution prism
+//!   (Nagy et al. 2000), each cell's part added to the ring holding its centre; the
+//!   reference for tests and benchmarks.
+//! - [`Method::Zoned`]: the plan's inner zone, prism and block rings (a quadtree over the
+//!   block pyramid, [`blocks`]) and sector rings ([`sectors`]).
+
+pub mod blocks;
+pub mod exact;
+pub mod inner;
+pub mod sectors;
+
+use crate::dem::pyramid::Pyramid;
+use crate::dem::Dem;
+use crate::units::{EARTH_RADIUS_M, G};
+use crate::zones::{InnerZone, ZoneGroup, ZonePlan};
+use rayon::prelude::*;
+
+/// How the Earth's shape enters the correction.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Convention {
+    /// Bouguer cap to 166.7 km; every column lowered by the curvature drop `s^2 / 2R`.
+    Spherical,
+    /// Infinite slab; flat Earth (classical, for comparison with old surveys).
+    Planar,
+}
+
+impl Convention {
+    /// `1/R` for the curvature drop `d = s^2 / (2R)`, or 0 for the planar convention.
+    pub fn curvature(self) -> f64 {
+        match self {
+            Convention::Spherical => 1.0 / EARTH_RADIUS_M,
+            Convention::Planar => 0.0,
+        }
+    }
+}
+
+/// How the topography is integrated.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Method {
+    /// Inner zone, prisms near, pyramid blocks in the middle, sectors far.
+    Zoned,
+    /// Every DEM cell within the outer radius is a full-resolution prism (reference).
+    Exact,
+}
+
+/// What the cells right around the station are.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum InnerModel {
+    /// A continuous surface through the station: the bilinear DEM surface shifted by
+    /// station minus DEM height, the shift tapered to zero at the inner zone's edge,
+    /// integrated by polar quadrature of the column kernel.
+    Surface,
+    /// Every cell, the station's own included, is a flat-topped prism.
+    Prisms,
+}
+
+/// Settings of one run that the engine needs.
+#[derive(Debug, Clone, Copy)]
+pub struct EngineConfig {
+    /// Outer radius of the correction, m.
+    pub outer_radius_m: f64,
+    pub convention: Convention,
+    pub method: Method,
+    pub inner_model: InnerModel,
+}
+
+/// What the engine found for one station.
+#[derive(Debug, Clone, PartialEq)]
+pub struct StationResult {
+    /// Bilinear DEM height at the station, m (`None` on nodata).
+    pub dem_elev_m: Option<f64>,
+    /// Kernel sum of the inner zone, m.
+    pub inner_m: f64,
+    /// Kernel sum of each ring of the plan, m.
+    pub rings_m: Vec<f64>,
+    /// Fraction of the disc of the outer radius that has valid DEM data, 0..1.
+    pub coverage: f64,
+    /// DEM cells with data inside the disc.
+    pub cells_used: u64,
+    /// Kernel evaluations in the inner zone (prisms, or quadrature points).
+    pub inner_elements: u64,
+    /// Elements evaluated in each ring (prisms, blocks, compartments).
+    pub ring_elements: Vec<u64>,
+}
+
+impl StationResult {
+    /// Sum of all kernels, m: the correction is `G rho kernel_sum_m()`.
+    pub fn kernel_sum_m(&self) -> f64 {
+        self.inner_m + self.rings_m.iter().sum::<f64>()
+    }
+
+    /// The terrain correction for a constant density, m/s^2 (downward positive).
+    pub fn tc_m_s2(&self, density_kg_m3: f64) -> f64 {
+        G * density_kg_m3 * self.kernel_sum_m()
+    }
+
+    /// Kernel sum of one zone group (inner, near, middle, far), m.
+    pub fn group_m(&self, plan: &ZonePlan, group: ZoneGroup) -> f64 {
+        if group == ZoneGroup::Inner {
+            return self.inner_m;
+        }
+        plan.rings
+            .iter()
+            .zip(&self.rings_m)
+            .filter(|(ring, _)| ring.group() == group)
+            .map(|(_, k)| k)
+            .sum()
+    }
+}
+
+/// A point where the correction is wanted, in the DEM's CRS.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Point {
+    pub x: f64,
+    pub y: f64,
+    /// Height of the point (the station's own height), m.
+    pub elev: f64,
+}
+
+/// Counts of the cells whose centres fall inside a disc, for coverage.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct DiscCount {
+    /// Cells on the grid with data.
+    pub valid: u64,
+    /// Cells on the grid without data.
+    pub nodata: u64,
+    /// Cell positions off the grid (the grid extended with its own spacing).
+    pub outside: u64,
+}
+
+impl DiscCount {
+    /// Fraction of the disc's cells with data.
+    pub fn coverage(&self) -> f64 {
+        let total = self.valid + self.nodata + self.outside;
+        if total == 0 {
+            0.0
+        } else {
+            self.valid as f64 / total as f64
+        }
+    }
+}
+
+/// Range of indices `i` with `|origin + (i + 0.5) step - centre| < half_width`.
+pub(crate) fn index_range(origin: f64, step: f64, centre: f64, half_width: f64) -> (i64, i64) {
+    let lo = ((centre - half_width - origin) / step - 0.5).floor() as i64;
+    let hi = ((centre + half_width - origin) / step - 0.5).ceil() as i64;
+    let inside = |i: i64| ((origin + (i as f64 + 0.5) * step) - centre).abs() < half_width;
+    let mut a = lo;
+    while a <= hi && !inside(a) {
+        a += 1;
+    }
+    let mut b = hi;
+    while b >= a && !inside(b) {
+        b -= 1;
+    }
+    (a, b)
+}
+
+/// Counts the cells of `dem` (extended beyond its edges with its own spacing) whose
+/// centres lie strictly inside the disc of radius `radius` around `(x, y)`.
+pub fn count_disc(dem: &Dem, x: f64, y: f64, radius: f64) -> DiscCount {
+    let mut count = DiscCount::default();
+    let (r_lo, r_hi) = index_range(-dem.y_top, dem.dy, -y, radius);
+    for r in r_lo..=r_hi {
+        let cy = dem.y_top - (r as f64 + 0.5) * dem.dy;
+        let dy = cy - y;
+        let half = (radius * radius - dy * dy).max(0.0).sqrt();
+        let (c_lo, c_hi) = index_range(dem.x_left, dem.dx, x, half);
+        if c_hi < c_lo {
+            continue;
+        }
+        let total = (c_hi - c_lo + 1) as u64;
+        if r < 0 || r >= dem.rows as i64 {
+            count.outside += total;
+            continue;
+        }
+        let on_lo = c_lo.max(0);
+        let on_hi = c_hi.min(dem.cols as i64 - 1);
+        let on = if on_hi >= on_lo {
+            (on_hi - on_lo + 1) as u64
+        } else {
+            0
+        };
+        count.outside += total - on;
+        let row = r as usize;
+        for c in on_lo..=on_hi {
+            if dem.height(c as usize, row).is_some() {
+                count.valid += 1;
+            } else {
+                count.nodata += 1;
+            }
+        }
+    }
+    count
+}
+
+/// The cell index box of a cell-square inner zone: columns and rows `lo..=hi`
+/// (possibly off the grid).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct CellBox {
+    pub col_lo: i64,
+    pub col_hi: i64,
+    pub row_lo: i64,
+    pub row_hi: i64,
+}
+
+impl CellBox {
+    /// The `(2m+1)^2` cells centred on the cell holding `(x, y)`.
+    pub fn around(dem: &Dem, x: f64, y: f64, half_width: usize) -> CellBox {
+        let col = ((x - dem.x_left) / dem.dx).floor() as i64;
+        let row = ((dem.y_top - y) / dem.dy).floor() as i64;
+        let m = half_width as i64;
+        CellBox {
+            col_lo: col - m,
+            col_hi: col + m,
+            row_lo: row - m,
+            row_hi: row + m,
+        }
+    }
+
+    #[inline]
+    pub fn contains(&self, col: i64, row: i64) -> bool {
+        col >= self.col_lo && col <= self.col_hi && row >= self.row_lo && row <= self.row_hi
+    }
+
+    /// Whether the box overlaps the cell range `cols c0..c1`, `rows r0..r1` (exclusive ends).
+    #[inline]
+    pub fn overlaps(&self, c0: i64, c1: i64, r0: i64, r1: i64) -> bool {
+        c0 <= self.col_hi && c1 > self.col_lo && r0 <= self.row_hi && r1 > self.row_lo
+    }
+}
+
+/// The engine: a DEM, the settings, the zone plan, and what is built once per DEM.
+pub struct Engine<'a> {
+    pub dem: &'a Dem,
+    pub config: EngineConfig,
+    pub plan: ZonePlan,
+    /// Block statistics, built for the zoned method.
+    pub pyramid: Option<Pyramid>,
+}
+
+impl<'a> Engine<'a> {
+    /// Prepares an engine; builds the block pyramid when the method needs it.
+    pub fn new(dem: &'a Dem, config: EngineConfig, plan: ZonePlan) -> Engine<'a> {
+        let pyramid = match config.method {
+            Method::Zoned => Some(Pyramid::build(dem)),
+            Method::Exact => None,
+        };
+        Engine {
+            dem,
+            config,
+            plan,
+            pyramid,
+        }
+    }
+
+    /// Computes the correction at one point.
+    pub fn compute(&self, p: Point) -> StationResult {
+        let count = count_disc(self.dem, p.x, p.y, self.config.outer_radius_m);
+        let mut parts = Parts::new(self.plan.rings.len());
+        match self.config.method {
+            Method::Exact => exact::exact_parts(self, p, &mut parts),
+            Method::Zoned => self.zoned_parts(p, &mut parts),
+        }
+        StationResult {
+            dem_elev_m: self.dem.bilinear(p.x, p.y),
+            inner_m: parts.inner,
+            rings_m: parts.rings,
+            coverage: count.coverage(),
+            cells_used: count.valid,
+            inner_elements: parts.inner_elements,
+            ring_elements: parts.ring_elements,
+        }
+    }
+
+    fn zoned_parts(&self, p: Point, parts: &mut Parts) {
+        let pyramid = self
+            .pyramid
+            .as_ref()
+            .expect("the zoned method builds a pyramid");
+        let curvature = self.config.convention.curvature();
+        let inner_box = match self.plan.inner {
+            InnerZone::Cells { half_width } => {
+                let cells = CellBox::around(self.dem, p.x, p.y, half_width);
+                parts.inner += match self.config.inner_model {
+                    InnerModel::Surface => inner::surface_square(
+                        self.dem,
+                        p,
+                        &cells,
+                        curvature,
+                        &mut parts.inner_elements,
+                    ),
+                    InnerModel::Prisms => inner::prisms_in_box(
+                        self.dem,
+                        p,
+                        &cells,
+                        curvature,
+                        self.config.outer_radius_m,
+                        &mut parts.inner_elements,
+                    ),
+                };
+                Some(cells)
+            }
+            InnerZone::Disc { radius_m } => {
+                if self.config.inner_model == InnerModel::Surface {
+                    parts.inner += inner::surface_disc(
+                        self.dem,
+                        p,
+                        radius_m,
+                        curvature,
+                        &mut parts.inner_elements,
+                    );
+                }
+                None
+            }
+        };
+        let quad_outer = self.plan.quadtree_outer_m().min(self.config.outer_radius_m);
+        if quad_outer > 0.0 {
+            blocks::walk(
+                self.dem, pyramid, &self.plan, p, curvature, quad_outer, inner_box, parts,
+            );
+        }
+        sectors::sector_rings(self.dem, pyramid, &self.plan, p, curvature, parts);
+    }
+
+    /// Computes every point in parallel (rayon), results in input order; `tick` is
+    /// called once per finished point (for a progress bar).
+    pub fn compute_all(&self, points: &[Point], tick: &(dyn Fn() + Sync)) -> Vec<StationResult> {
+        points
+            .par_iter()
+            .map(|&p| {
+                let r = self.compute(p);
+                tick();
+                r
+            })
+            .collect()
+    }
+}
+
+/// Running sums of one station.
+#[derive(Debug, Clone)]
+pub struct Parts {
+    pub inner: f64,
+    pub rings: Vec<f64>,
+    pub inner_elements: u64,
+    pub ring_elements: Vec<u64>,
+}
+
+impl Parts {
+    pub fn new(rings: usize) -> Parts {
+        Parts {
+            inner: 0.0,
+            rings: vec![0.0; rings],
+            inner_elements: 0,
+            ring_elements: vec![0; rings],
+        }
+    }
+
+    /// Adds one element's kernel to ring `ring`.
+    #[inline]
+    pub fn add(&mut self, ring: usize, kernel: f64) {
+        self.rings[ring] += kernel;
+        self.ring_elements[ring] += 1;
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn disc_count_is_exact_inside_and_counts_outside() {
+        let dem = Dem::from_fn("flat", 100, 100, 0.0, 1000.0, 10.0, |_, _| 0.0);
+        let inside = count_disc(&dem, 500.0, 500.0, 200.0);
+        assert_eq!(inside.outside + inside.nodata, 0);
+        assert_eq!(inside.coverage(), 1.0);
+        let expected = std::f64::consts::PI * 200.0 * 200.0 / 100.0;
+        assert!((inside.valid as f64 - expected).abs() / expected < 0.01);
+        let edge = count_disc(&dem, 0.0, 500.0, 200.0);
+        assert!((edge.coverage() - 0.5).abs() < 0.02, "{}", edge.coverage());
+    }
+}

@@ -1,0 +1,649 @@
+//! The zone plan: how a station's surroundings are split into rings and how each ring is
+//! integrated. Pure data, printed by `ringsum plan` and read by the engine.
+//!
+//! A plan is an inner zone and a list of contiguous rings out to the outer radius:
+//! - the inner zone: the `(2m+1) x (2m+1)` DEM cells around the station's cell (or a
+//!   disc, for the Hammer preset's zone A);
+//! - `Prisms` rings: full-resolution right rectangular prisms (the near zone);
+//! - `Blocks` rings: pyramid blocks whose side stays below `ratio` times their distance,
+//!   evaluated with their height statistics (the middle zone);
+//! - `Sectors` rings: annular sectors with `compartments` compartments, heights sampled
+//!   from the pyramid (the far zone, in the manner of Hammer's zones).
+//!
+//! Prism and block rings come first (they are walked together as one quadtree of
+//! blocks, which keeps the partition exact: every cell belongs to exactly one element);
+//! sector rings follow.
+
+use crate::units::{format_length, parse_length_m};
+use std::f64::consts::PI;
+use std::path::Path;
+
+/// How one ring is integrated.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum RingMethod {
+    /// Full-resolution prisms, one per DEM cell.
+    Prisms,
+    /// Pyramid blocks no larger than `ratio` times their distance from the station.
+    Blocks { ratio: f64 },
+    /// One annulus of `compartments` equal sectors.
+    Sectors { compartments: usize },
+}
+
+impl RingMethod {
+    pub fn name(&self) -> &'static str {
+        match self {
+            RingMethod::Prisms => "prisms",
+            RingMethod::Blocks { .. } => "blocks",
+            RingMethod::Sectors { .. } => "sectors",
+        }
+    }
+}
+
+/// Which summary column a ring's part goes to.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord)]
+pub enum ZoneGroup {
+    Inner,
+    Near,
+    Middle,
+    Far,
+}
+
+/// One ring of the plan.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Ring {
+    /// Short name, used in per-ring output columns (`tc_<name>_mgal`).
+    pub name: String,
+    pub inner_m: f64,
+    pub outer_m: f64,
+    pub method: RingMethod,
+}
+
+impl Ring {
+    /// The summary column this ring feeds.
+    pub fn group(&self) -> ZoneGroup {
+        match self.method {
+            RingMethod::Prisms => ZoneGroup::Near,
+            RingMethod::Blocks { .. } => ZoneGroup::Middle,
+            RingMethod::Sectors { .. } => ZoneGroup::Far,
+        }
+    }
+}
+
+/// The inner zone.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum InnerZone {
+    /// The `(2m+1)^2` cells centred on the station's cell.
+    Cells { half_width: usize },
+    /// A disc of this radius around the station (m).
+    Disc { radius_m: f64 },
+}
+
+/// A whole plan.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ZonePlan {
+    /// Where the plan came from (auto, hammer, or a file).
+    pub source: String,
+    pub inner: InnerZone,
+    pub rings: Vec<Ring>,
+    /// Whether per-ring columns are written (the Hammer preset and custom plans).
+    pub per_ring_columns: bool,
+}
+
+/// Why a plan is not usable; each message names the ring and what to do.
+#[derive(Debug, thiserror::Error, PartialEq)]
+pub enum ZoneError {
+    #[error("{file}: {detail}")]
+    Invalid { file: String, detail: String },
+}
+
+/// Hammer's (1939) zones B to M: outer radius in feet and compartments. Zone B starts
+/// at 6.56 ft (2 m); zone A inside it is the station zone.
+///
+/// Radii and counts as in SCIENCE.md section 3 (there marked "from memory"; the outer
+/// radius 71 996 ft = 21.94 km agrees with the "about 13.6 miles" of Sandberg 1959).
+pub const HAMMER_ZONES: [(&str, f64, usize); 12] = [
+    ("B", 54.6, 4),
+    ("C", 175.0, 6),
+    ("D", 558.0, 6),
+    ("E", 1280.0, 8),
+    ("F", 2936.0, 8),
+    ("G", 5018.0, 12),
+    ("H", 8578.0, 12),
+    ("I", 14662.0, 12),
+    ("J", 21826.0, 16),
+    ("K", 32490.0, 16),
+    ("L", 48365.0, 16),
+    ("M", 71996.0, 16),
+];
+
+/// Inner radius of Hammer's zone B (6.56 ft), m.
+pub const HAMMER_ZONE_A_RADIUS_M: f64 = 6.56 * FOOT_M;
+
+/// The international foot, m.
+pub const FOOT_M: f64 = 0.3048;
+
+/// Compartments of a ring from `r1` to `r2` so that the arc at mid-radius is about the
+/// ring's width: `n = pi (r1 + r2) / (r2 - r1)`, at least 4.
+pub fn compartments_for(r1: f64, r2: f64) -> usize {
+    ((PI * (r1 + r2) / (r2 - r1)).round() as usize).max(4)
+}
+
+/// Geometric ring radii from `start` to `end` with ratio close to `ratio`.
+fn geometric_radii(start: f64, end: f64, ratio: f64) -> Vec<f64> {
+    let steps = ((end / start).ln() / ratio.ln()).ceil().max(1.0) as usize;
+    let q = (end / start).powf(1.0 / steps as f64);
+    (0..=steps)
+        .map(|i| {
+            if i == steps {
+                end
+            } else {
+                start * q.powi(i as i32)
+            }
+        })
+        .collect()
+}
+
+/// Settings of the automatic plan (measured choices; see the README's performance section).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct AutoSettings {
+    /// Inner zone half-width, cells.
+    pub inner_half_width: usize,
+    /// Near-zone radius in cell sizes (prisms out to here).
+    pub near_cells: f64,
+    /// Block side / distance.
+    pub block_ratio: f64,
+    /// Far zone start, m (no far zone if beyond the outer radius).
+    pub far_start_m: f64,
+    /// Ratio of successive far-ring radii.
+    pub far_ring_ratio: f64,
+}
+
+impl Default for AutoSettings {
+    fn default() -> Self {
+        AutoSettings {
+            inner_half_width: 1,
+            near_cells: 8.0,
+            block_ratio: 0.3,
+            far_start_m: f64::INFINITY,
+            far_ring_ratio: 1.25,
+        }
+    }
+}
+
+impl ZonePlan {
+    /// The automatic plan for a DEM with cell size `cell_m` and an outer radius.
+    pub fn auto(cell_m: f64, outer_m: f64, s: &AutoSettings) -> ZonePlan {
+        let mut rings = Vec::new();
+        let near = (s.near_cells * cell_m).min(outer_m);
+        rings.push(Ring {
+            name: "near".into(),
+            inner_m: 0.0,
+            outer_m: near,
+            method: RingMethod::Prisms,
+        });
+        let far_start = s.far_start_m.max(near);
+        if near < outer_m {
+            let mid_end = far_start.min(outer_m);
+            if mid_end > near {
+                rings.push(Ring {
+                    name: "mid".into(),
+                    inner_m: near,
+                    outer_m: mid_end,
+                    method: RingMethod::Blocks {
+                        ratio: s.block_ratio,
+                    },
+                });
+            }
+            if far_start < outer_m {
+                let radii = geometric_radii(far_start, outer_m, s.far_ring_ratio);
+                for (i, w) in radii.windows(2).enumerate() {
+                    rings.push(Ring {
+                        name: format!("far{}", i + 1),
+                        inner_m: w[0],
+                        outer_m: w[1],
+                        method: RingMethod::Sectors {
+                            compartments: compartments_for(w[0], w[1]),
+                        },
+                    });
+                }
+            }
+        }
+        ZonePlan {
+            source: "auto".into(),
+            inner: InnerZone::Cells {
+                half_width: s.inner_half_width,
+            },
+            rings,
+            per_ring_columns: false,
+        }
+    }
+
+    /// Hammer's (1939) zones B to M, then rings continued geometrically (ratio of zone M,
+    /// 16 compartments) to the outer radius; truncated at the outer radius.
+    pub fn hammer(outer_m: f64) -> ZonePlan {
+        let mut rings = Vec::new();
+        let mut r1 = HAMMER_ZONE_A_RADIUS_M;
+        for (name, outer_ft, n) in HAMMER_ZONES {
+            let r2 = outer_ft * FOOT_M;
+            if r1 >= outer_m {
+                break;
+            }
+            rings.push(Ring {
+                name: name.to_string(),
+                inner_m: r1,
+                outer_m: r2.min(outer_m),
+                method: RingMethod::Sectors { compartments: n },
+            });
+            r1 = r2;
+        }
+        let q = 71996.0 / 48365.0;
+        let mut k = 1;
+        while r1 < outer_m {
+            let r2 = (r1 * q).min(outer_m);
+            rings.push(Ring {
+                name: format!("beyondM{k}"),
+                inner_m: r1,
+                outer_m: r2,
+                method: RingMethod::Sectors { compartments: 16 },
+            });
+            r1 = r2;
+            k += 1;
+        }
+        ZonePlan {
+            source: "hammer".into(),
+            inner: InnerZone::Disc {
+                radius_m: HAMMER_ZONE_A_RADIUS_M.min(outer_m),
+            },
+            rings,
+            per_ring_columns: true,
+        }
+    }
+
+    /// Reads a plan from a TOML file (see [`ZonePlan::from_toml`]).
+    pub fn from_file(path: &Path) -> Result<ZonePlan, ZoneError> {
+        let source = path.display().to_string();
+        let text = std::fs::read_to_string(path).map_err(|e| ZoneError::Invalid {
+            file: source.clone(),
+            detail: format!("cannot read the zone plan ({e}); check the path given with --zones"),
+        })?;
+        ZonePlan::from_toml(&text, &source)
+    }
+
+    /// Parses a plan:
+    ///
+    /// ```toml
+    /// inner_cells = 1          # half-width of the inner zone in cells (or inner_radius = "2m")
+    /// [[ring]]
+    /// name = "near"            # optional; used for per-ring columns
+    /// outer = "250m"
+    /// method = "prisms"
+    /// [[ring]]
+    /// outer = "20km"
+    /// method = "blocks"
+    /// block_ratio = 0.3        # block side / distance, 0 < r <= 1
+    /// [[ring]]
+    /// outer = "30km"
+    /// method = "sectors"
+    /// compartments = 16
+    /// ```
+    ///
+    /// Each ring starts where the previous one ends (`inner` may be given and must
+    /// then match).
+    pub fn from_toml(text: &str, source: &str) -> Result<ZonePlan, ZoneError> {
+        let bad = |detail: String| ZoneError::Invalid {
+            file: source.to_string(),
+            detail,
+        };
+        let value: toml::Table = text.parse().map_err(|e: toml::de::Error| {
+            bad(format!("not a valid TOML file ({})", e.message()))
+        })?;
+        for key in value.keys() {
+            if !["inner_cells", "inner_radius", "ring"].contains(&key.as_str()) {
+                return Err(bad(format!(
+                    "unknown key '{key}'; a plan has inner_cells or inner_radius, and [[ring]] tables"
+                )));
+            }
+        }
+        let inner = match (value.get("inner_cells"), value.get("inner_radius")) {
+            (Some(_), Some(_)) => {
+                return Err(bad("give inner_cells or inner_radius, not both".into()))
+            }
+            (Some(v), None) => {
+                let m = v
+                    .as_integer()
+                    .filter(|m| (0..=16).contains(m))
+                    .ok_or_else(|| bad("inner_cells must be a whole number from 0 to 16".into()))?;
+                InnerZone::Cells {
+                    half_width: m as usize,
+                }
+            }
+            (None, Some(v)) => {
+                let r = length_value(v).map_err(|e| bad(format!("inner_radius: {e}")))?;
+                if r <= 0.0 {
+                    return Err(bad("inner_radius must be positive".into()));
+                }
+                InnerZone::Disc { radius_m: r }
+            }
+            (None, None) => InnerZone::Cells { half_width: 1 },
+        };
+        let rings_value = value
+            .get("ring")
+            .and_then(|v| v.as_array())
+            .ok_or_else(|| bad("the plan has no [[ring]] tables".into()))?;
+        let mut rings = Vec::new();
+        let mut previous_outer = match inner {
+            InnerZone::Disc { radius_m } => radius_m,
+            InnerZone::Cells { .. } => 0.0,
+        };
+        for (i, item) in rings_value.iter().enumerate() {
+            let number = i + 1;
+            let table = item
+                .as_table()
+                .ok_or_else(|| bad(format!("ring {number} is not a table")))?;
+            for key in table.keys() {
+                if ![
+                    "name",
+                    "inner",
+                    "outer",
+                    "method",
+                    "block_ratio",
+                    "compartments",
+                ]
+                .contains(&key.as_str())
+                {
+                    return Err(bad(format!(
+                        "ring {number}: unknown key '{key}' (known: name, inner, outer, method, block_ratio, compartments)"
+                    )));
+                }
+            }
+            let name = match table.get("name") {
+                Some(v) => v
+                    .as_str()
+                    .ok_or_else(|| bad(format!("ring {number}: name must be text")))?
+                    .to_string(),
+                None => format!("ring{number}"),
+            };
+            if !name.chars().all(|c| c.is_ascii_alphanumeric() || c == '_') || name.is_empty() {
+                return Err(bad(format!(
+                    "ring {number}: name '{name}' may hold only letters, digits and _"
+                )));
+            }
+            let outer = length_value(
+                table
+                    .get("outer")
+                    .ok_or_else(|| bad(format!("ring {number} ({name}) has no outer radius")))?,
+            )
+            .map_err(|e| bad(format!("ring {number} ({name}): outer: {e}")))?;
+            let inner_r = match table.get("inner") {
+                Some(v) => length_value(v)
+                    .map_err(|e| bad(format!("ring {number} ({name}): inner: {e}")))?,
+                None => previous_outer,
+            };
+            if inner_r > previous_outer + 1e-9 {
+                return Err(bad(format!(
+                    "ring {number} ({name}) starts at {} but the previous zone ends at {}: the gap would be left out; make them meet",
+                    format_length(inner_r),
+                    format_length(previous_outer)
+                )));
+            }
+            if inner_r < previous_outer - 1e-9 {
+                return Err(bad(format!(
+                    "ring {number} ({name}) starts at {} inside the previous zone, which ends at {}: the overlap would be counted twice; make them meet",
+                    format_length(inner_r),
+                    format_length(previous_outer)
+                )));
+            }
+            if outer <= inner_r {
+                return Err(bad(format!(
+                    "ring {number} ({name}): radii must increase, but outer {} is not beyond inner {}",
+                    format_length(outer),
+                    format_length(inner_r)
+                )));
+            }
+            let method_name = table
+                .get("method")
+                .and_then(|v| v.as_str())
+                .ok_or_else(|| {
+                    bad(format!(
+                        "ring {number} ({name}) has no method (prisms, blocks or sectors)"
+                    ))
+                })?;
+            let method = match method_name {
+                "prisms" => RingMethod::Prisms,
+                "blocks" => {
+                    let ratio = table
+                        .get("block_ratio")
+                        .map(|v| v.as_float().or_else(|| v.as_integer().map(|i| i as f64)))
+                        .unwrap_or(Some(0.3))
+                        .ok_or_else(|| bad(format!("ring {number} ({name}): block_ratio must be a number")))?;
+                    if !(ratio > 0.0 && ratio <= 1.0) {
+                        return Err(bad(format!("ring {number} ({name}): block_ratio {ratio} must be in (0, 1]")));
+                    }
+                    RingMethod::Blocks { ratio }
+                }
+                "sectors" => {
+                    let n = table
+                        .get("compartments")
+                        .map(|v| v.as_integer())
+                        .unwrap_or(Some(compartments_for(inner_r, outer) as i64))
+                        .ok_or_else(|| bad(format!("ring {number} ({name}): compartments must be a whole number")))?;
+                    if n <= 0 {
+                        return Err(bad(format!("ring {number} ({name}): compartments must be at least 1, not {n}")));
+                    }
+                    RingMethod::Sectors { compartments: n as usize }
+                }
+                other => {
+                    return Err(bad(format!(
+                        "ring {number} ({name}): unknown method '{other}'; use prisms, blocks or sectors"
+                    )))
+                }
+            };
+            rings.push(Ring {
+                name,
+                inner_m: inner_r,
+                outer_m: outer,
+                method,
+            });
+            previous_outer = outer;
+        }
+        let plan = ZonePlan {
+            source: source.to_string(),
+            inner,
+            rings,
+            per_ring_columns: true,
+        };
+        plan.check_order().map_err(bad)?;
+        Ok(plan)
+    }
+
+    /// Prism and block rings must come before sector rings, and a disc inner zone needs
+    /// sectors right after it.
+    fn check_order(&self) -> Result<(), String> {
+        let mut seen_sectors = false;
+        for (i, ring) in self.rings.iter().enumerate() {
+            match ring.method {
+                RingMethod::Sectors { .. } => seen_sectors = true,
+                _ if seen_sectors => {
+                    return Err(format!(
+                        "ring {} ({}) uses {} outside a sector ring; prism and block rings must come before sector rings",
+                        i + 1,
+                        ring.name,
+                        ring.method.name()
+                    ))
+                }
+                _ => {}
+            }
+        }
+        if let InnerZone::Disc { .. } = self.inner {
+            if self
+                .rings
+                .iter()
+                .any(|r| !matches!(r.method, RingMethod::Sectors { .. }))
+            {
+                return Err("an inner_radius (disc) inner zone can only be followed by sector rings; use inner_cells with prism or block rings".into());
+            }
+        }
+        let mut names = std::collections::HashSet::new();
+        for ring in &self.rings {
+            if !names.insert(ring.name.as_str()) {
+                return Err(format!(
+                    "two rings are named '{}'; give each ring its own name",
+                    ring.name
+                ));
+            }
+        }
+        Ok(())
+    }
+
+    /// Cuts the plan at the outer radius; refuses a plan that ends before it.
+    pub fn fitted_to(mut self, outer_m: f64) -> Result<ZonePlan, ZoneError> {
+        let end = self.rings.last().map(|r| r.outer_m).unwrap_or(0.0);
+        if end + 1e-6 < outer_m {
+            return Err(ZoneError::Invalid {
+                file: self.source.clone(),
+                detail: format!(
+                    "the plan ends at {} but the outer radius is {}; add rings or give --outer-radius {}",
+                    format_length(end),
+                    format_length(outer_m),
+                    format_length(end)
+                ),
+            });
+        }
+        self.rings.retain(|r| r.inner_m < outer_m);
+        if let Some(last) = self.rings.last_mut() {
+            last.outer_m = last.outer_m.min(outer_m);
+        }
+        Ok(self)
+    }
+
+    /// Outer radius of the prism and block rings (where sectors begin), m.
+    pub fn quadtree_outer_m(&self) -> f64 {
+        self.rings
+            .iter()
+            .filter(|r| !matches!(r.method, RingMethod::Sectors { .. }))
+            .map(|r| r.outer_m)
+            .fold(0.0, f64::max)
+    }
+
+    /// Index of the ring containing distance `d` (the last ring for `d` beyond the plan).
+    pub fn ring_at(&self, d: f64) -> usize {
+        match self.rings.iter().position(|r| d < r.outer_m) {
+            Some(i) => i,
+            None => self.rings.len().saturating_sub(1),
+        }
+    }
+}
+
+fn length_value(v: &toml::Value) -> Result<f64, String> {
+    match v {
+        toml::Value::String(s) => parse_length_m(s),
+        toml::Value::Float(f) => Ok(*f),
+        toml::Value::Integer(i) => Ok(*i as f64),
+        _ => Err("give a length such as \"20km\" or 500".into()),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn hammer_preset_radii_and_counts() {
+        // Hammer (1939) zones B-M as listed in SCIENCE.md section 3 (metres are feet x 0.3048).
+        let plan = ZonePlan::hammer(71_996.0 * FOOT_M);
+        let names: Vec<&str> = plan.rings.iter().map(|r| r.name.as_str()).collect();
+        assert_eq!(
+            names,
+            ["B", "C", "D", "E", "F", "G", "H", "I", "J", "K", "L", "M"]
+        );
+        let counts: Vec<usize> = plan
+            .rings
+            .iter()
+            .map(|r| match r.method {
+                RingMethod::Sectors { compartments } => compartments,
+                _ => 0,
+            })
+            .collect();
+        assert_eq!(counts, [4, 6, 6, 8, 8, 12, 12, 12, 16, 16, 16, 16]);
+        let metres = [
+            16.6, 53.3, 170.1, 390.1, 894.9, 1529.5, 2614.6, 4469.0, 6652.6, 9903.0, 14741.7,
+            21944.4,
+        ];
+        for (ring, m) in plan.rings.iter().zip(metres) {
+            assert!(
+                (ring.outer_m - m).abs() < 0.06,
+                "{} {} vs {}",
+                ring.name,
+                ring.outer_m,
+                m
+            );
+        }
+        assert!((plan.rings[0].inner_m - 2.0).abs() < 0.01);
+        // Continued beyond M to 166.7 km with zone M's ratio.
+        let long = ZonePlan::hammer(166_735.0);
+        assert!(long.rings.len() > 12);
+        assert_eq!(long.rings.last().unwrap().outer_m, 166_735.0);
+        for w in long.rings.windows(2) {
+            assert_eq!(w[0].outer_m, w[1].inner_m);
+        }
+    }
+
+    #[test]
+    fn auto_plan_is_contiguous() {
+        let s = AutoSettings {
+            far_start_m: 30_000.0,
+            ..AutoSettings::default()
+        };
+        let plan = ZonePlan::auto(30.0, 166_735.0, &s);
+        assert_eq!(plan.rings[0].inner_m, 0.0);
+        for w in plan.rings.windows(2) {
+            assert_eq!(w[0].outer_m, w[1].inner_m);
+        }
+        assert_eq!(plan.rings.last().unwrap().outer_m, 166_735.0);
+        for r in &plan.rings {
+            if let RingMethod::Sectors { compartments } = r.method {
+                let arc = PI * (r.inner_m + r.outer_m) / compartments as f64;
+                let width = r.outer_m - r.inner_m;
+                assert!((arc / width - 1.0).abs() < 0.1);
+            }
+        }
+    }
+
+    #[test]
+    fn toml_plans_are_validated() {
+        let good = "inner_cells = 1\n[[ring]]\nouter = \"300m\"\nmethod = \"prisms\"\n[[ring]]\nouter = \"10km\"\nmethod = \"blocks\"\nblock_ratio = 0.25\n[[ring]]\nname = \"far\"\nouter = \"20km\"\nmethod = \"sectors\"\ncompartments = 24\n";
+        let plan = ZonePlan::from_toml(good, "p.toml").unwrap();
+        assert_eq!(plan.rings.len(), 3);
+        assert_eq!(plan.rings[1].method, RingMethod::Blocks { ratio: 0.25 });
+        let err = |text: &str| ZonePlan::from_toml(text, "p.toml").unwrap_err().to_string();
+        assert!(err("[[ring]]\nouter = \"1km\"\nmethod = \"prisms\"\n[[ring]]\nouter = \"500m\"\nmethod = \"blocks\"\n").contains("radii must increase"));
+        assert!(err("[[ring]]\nouter = \"1km\"\nmethod = \"prisms\"\n[[ring]]\ninner = \"2km\"\nouter = \"5km\"\nmethod = \"blocks\"\n").contains("gap"));
+        assert!(err("[[ring]]\nouter = \"1km\"\nmethod = \"prisms\"\n[[ring]]\ninner = \"500m\"\nouter = \"5km\"\nmethod = \"blocks\"\n").contains("overlap"));
+        assert!(err("[[ring]]\nouter = \"1km\"\nmethod = \"magic\"\n")
+            .contains("unknown method 'magic'"));
+        assert!(
+            err("[[ring]]\nouter = \"1km\"\nmethod = \"sectors\"\ncompartments = 0\n")
+                .contains("at least 1")
+        );
+        assert!(err("[[ring]]\nouter = \"1km\"\nmethod = \"sectors\"\n[[ring]]\nouter = \"5km\"\nmethod = \"blocks\"\n").contains("must come before"));
+        assert!(err("inner_cells = 1\n").contains("no [[ring]]"));
+        assert!(
+            err("[[ring]]\nouter = \"1km\"\nmethod = \"prisms\"\nratio = 3\n")
+                .contains("unknown key 'ratio'")
+        );
+    }
+
+    #[test]
+    fn plans_fit_the_outer_radius() {
+        let plan = ZonePlan::hammer(71_996.0 * FOOT_M);
+        let short = plan.clone().fitted_to(10_000.0).unwrap();
+        assert_eq!(short.rings.last().unwrap().outer_m, 10_000.0);
+        let text = "[[ring]]\nouter = \"1km\"\nmethod = \"prisms\"\n";
+        let p = ZonePlan::from_toml(text, "p.toml").unwrap();
+        assert!(p
+            .fitted_to(2000.0)
+            .unwrap_err()
+            .to_string()
+            .contains("ends at 1km"));
+    }
+}
