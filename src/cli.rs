@@ -24,10 +24,13 @@ pub struct Cli {
 #[derive(Debug, Subcommand)]
 pub enum Command {
     /// Per-station terrain correction from a DEM and a station file.
+    #[command(after_help = AFTER_HELP)]
     Correct(CorrectArgs),
     /// Print the zone plan for a DEM and outer radius, with the measured cost per station.
+    #[command(after_help = AFTER_HELP)]
     Plan(PlanArgs),
     /// Run the bundled invented scenario in demo-dem/ end to end and write its table.
+    #[command(after_help = AFTER_HELP)]
     Demo(DemoArgs),
 }
 
@@ -103,6 +106,7 @@ pub struct PhysicsArgs {
         long,
         value_name = "LENGTH",
         default_value = "166.7km",
+        allow_hyphen_values = true,
         help_heading = "Zones"
     )]
     pub outer_radius: String,
@@ -130,6 +134,7 @@ pub struct PhysicsArgs {
         long,
         value_name = "KG_M3",
         default_value_t = 2670.0,
+        allow_negative_numbers = true,
         help_heading = "Physics"
     )]
     pub density: f64,

@@ -16,6 +16,7 @@ use ringsum::engine::{Convention, Engine, EngineConfig, InnerModel, Method, Poin
 use ringsum::kernels::prism::{closed_form_rounding_bound, CLOSED_FORM_MAX_RATIO};
 use ringsum::kernels::prism_kernel;
 use ringsum::units::{to_mgal, EARTH_RADIUS_M, G};
+use ringsum::zones::{AutoSettings, ZonePlan};
 use std::collections::HashMap;
 use std::f64::consts::PI;
 
@@ -31,9 +32,14 @@ fn config(radius: f64, convention: Convention) -> EngineConfig {
     }
 }
 
+/// The automatic zone plan (the exact method only uses it for the per-zone split).
+fn plan(dem: &Dem, radius: f64) -> ZonePlan {
+    ZonePlan::auto(dem.dx, radius, &AutoSettings::default())
+}
+
 /// Terrain correction in mGal at `p` for density [`RHO`], through the library API.
 fn tc_mgal(dem: &Dem, p: Point, radius: f64, convention: Convention) -> f64 {
-    let result = Engine::new(dem, config(radius, convention)).compute(p);
+    let result = Engine::new(dem, config(radius, convention), plan(dem, radius)).compute(p);
     to_mgal(result.tc_m_s2(RHO))
 }
 
@@ -445,8 +451,8 @@ fn flat_plain_at_station_height_gives_exactly_zero() {
         },
     ] {
         for convention in [Convention::Planar, Convention::Spherical] {
-            let r = Engine::new(&dem, config(4000.0, convention)).compute(p);
-            assert_eq!(r.kernel_sum_m, 0.0, "{convention:?} at {p:?}");
+            let r = Engine::new(&dem, config(4000.0, convention), plan(&dem, 4000.0)).compute(p);
+            assert_eq!(r.kernel_sum_m(), 0.0, "{convention:?} at {p:?}");
             assert_eq!(r.coverage, 1.0);
         }
     }
@@ -658,7 +664,12 @@ fn jacksboro_through_the_library_matches_choclo_to_full_precision() {
                 ("spherical", Convention::Spherical),
             ] {
                 let expected = reference[&(id.to_string(), radius, name.to_string())];
-                let r = Engine::new(&dem, config(radius as f64, convention)).compute(p);
+                let r = Engine::new(
+                    &dem,
+                    config(radius as f64, convention),
+                    plan(&dem, radius as f64),
+                )
+                .compute(p);
                 let got = to_mgal(r.tc_m_s2(RHO));
                 assert_close!(
                     got,
