@@ -18,5 +18,6 @@ pub mod output;
 pub mod progress;
 pub mod reduce;
 pub mod stations;
+pub mod synthetic;
 pub mod units;
 pub mod zones;

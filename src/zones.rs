@@ -56,16 +56,31 @@ pub struct Ring {
     pub inner_m: f64,
     pub outer_m: f64,
     pub method: RingMethod,
+    /// The summary column (`tc_near_mgal`, ...) this ring's part goes to.
+    pub group: ZoneGroup,
 }
 
 impl Ring {
-    /// The summary column this ring feeds.
-    pub fn group(&self) -> ZoneGroup {
-        match self.method {
+    /// A ring whose summary column follows its method: prisms near, blocks middle,
+    /// sectors far.
+    pub fn new(name: impl Into<String>, inner_m: f64, outer_m: f64, method: RingMethod) -> Ring {
+        let group = match method {
             RingMethod::Prisms => ZoneGroup::Near,
             RingMethod::Blocks { .. } => ZoneGroup::Middle,
             RingMethod::Sectors { .. } => ZoneGroup::Far,
+        };
+        Ring {
+            name: name.into(),
+            inner_m,
+            outer_m,
+            method,
+            group,
         }
+    }
+
+    /// The summary column this ring feeds.
+    pub fn group(&self) -> ZoneGroup {
+        self.group
     }
 }
 
@@ -143,6 +158,15 @@ fn geometric_radii(start: f64, end: f64, ratio: f64) -> Vec<f64> {
         .collect()
 }
 
+/// How the automatic plan's far zone is integrated.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum FarMethod {
+    /// Pyramid blocks, as the middle zone (measured the more accurate; the default).
+    Blocks,
+    /// Annular sectors in geometric rings, compartments as wide as the ring.
+    Sectors,
+}
+
 /// Settings of the automatic plan (measured choices; see the README's performance section).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct AutoSettings {
@@ -154,57 +178,60 @@ pub struct AutoSettings {
     pub block_ratio: f64,
     /// Far zone start, m (no far zone if beyond the outer radius).
     pub far_start_m: f64,
-    /// Ratio of successive far-ring radii.
+    /// How the far zone is integrated.
+    pub far_method: FarMethod,
+    /// Ratio of successive far-ring radii (sectors).
     pub far_ring_ratio: f64,
 }
+
+/// Where the automatic plan's far zone starts: the outer edge of Hammer's zone M
+/// (71 996 ft), beyond which the curvature of the Earth starts to matter (Nowell 1999).
+pub const AUTO_FAR_START_M: f64 = 71_996.0 * FOOT_M;
 
 impl Default for AutoSettings {
     fn default() -> Self {
         AutoSettings {
             inner_half_width: 1,
-            near_cells: 8.0,
+            near_cells: 7.0,
             block_ratio: 0.3,
-            far_start_m: f64::INFINITY,
+            far_start_m: AUTO_FAR_START_M,
+            far_method: FarMethod::Blocks,
             far_ring_ratio: 1.25,
         }
     }
 }
 
 impl ZonePlan {
-    /// The automatic plan for a DEM with cell size `cell_m` and an outer radius.
+    /// The automatic plan for a DEM with cell size `cell_m` and an outer radius: the
+    /// inner zone, prisms to `near_cells` cells, blocks to the far-zone start, and the
+    /// far zone to the outer radius.
     pub fn auto(cell_m: f64, outer_m: f64, s: &AutoSettings) -> ZonePlan {
         let mut rings = Vec::new();
         let near = (s.near_cells * cell_m).min(outer_m);
-        rings.push(Ring {
-            name: "near".into(),
-            inner_m: 0.0,
-            outer_m: near,
-            method: RingMethod::Prisms,
-        });
+        rings.push(Ring::new("near", 0.0, near, RingMethod::Prisms));
         let far_start = s.far_start_m.max(near);
-        if near < outer_m {
-            let mid_end = far_start.min(outer_m);
-            if mid_end > near {
-                rings.push(Ring {
-                    name: "mid".into(),
-                    inner_m: near,
-                    outer_m: mid_end,
-                    method: RingMethod::Blocks {
-                        ratio: s.block_ratio,
-                    },
-                });
-            }
-            if far_start < outer_m {
-                let radii = geometric_radii(far_start, outer_m, s.far_ring_ratio);
-                for (i, w) in radii.windows(2).enumerate() {
-                    rings.push(Ring {
-                        name: format!("far{}", i + 1),
-                        inner_m: w[0],
-                        outer_m: w[1],
-                        method: RingMethod::Sectors {
+        let blocks = RingMethod::Blocks {
+            ratio: s.block_ratio,
+        };
+        let mid_end = far_start.min(outer_m);
+        if mid_end > near {
+            rings.push(Ring::new("mid", near, mid_end, blocks));
+        }
+        if far_start < outer_m {
+            match s.far_method {
+                FarMethod::Blocks => {
+                    let mut far = Ring::new("far", far_start, outer_m, blocks);
+                    far.group = ZoneGroup::Far;
+                    rings.push(far);
+                }
+                FarMethod::Sectors => {
+                    let radii = geometric_radii(far_start, outer_m, s.far_ring_ratio);
+                    for (i, w) in radii.windows(2).enumerate() {
+                        let method = RingMethod::Sectors {
                             compartments: compartments_for(w[0], w[1]),
-                        },
-                    });
+                        };
+                        rings.push(Ring::new(format!("far{}", i + 1), w[0], w[1], method));
+                    }
                 }
             }
         }
@@ -228,24 +255,16 @@ impl ZonePlan {
             if r1 >= outer_m {
                 break;
             }
-            rings.push(Ring {
-                name: name.to_string(),
-                inner_m: r1,
-                outer_m: r2.min(outer_m),
-                method: RingMethod::Sectors { compartments: n },
-            });
+            let method = RingMethod::Sectors { compartments: n };
+            rings.push(Ring::new(name, r1, r2.min(outer_m), method));
             r1 = r2;
         }
         let q = 71996.0 / 48365.0;
         let mut k = 1;
         while r1 < outer_m {
             let r2 = (r1 * q).min(outer_m);
-            rings.push(Ring {
-                name: format!("beyondM{k}"),
-                inner_m: r1,
-                outer_m: r2,
-                method: RingMethod::Sectors { compartments: 16 },
-            });
+            let method = RingMethod::Sectors { compartments: 16 };
+            rings.push(Ring::new(format!("beyondM{k}"), r1, r2, method));
             r1 = r2;
             k += 1;
         }
@@ -285,6 +304,7 @@ impl ZonePlan {
     /// outer = "30km"
     /// method = "sectors"
     /// compartments = 16
+    /// group = "far"            # optional summary column: near, mid or far (default by method)
     /// ```
     ///
     /// Each ring starts where the previous one ends (`inner` may be given and must
@@ -348,11 +368,12 @@ impl ZonePlan {
                     "method",
                     "block_ratio",
                     "compartments",
+                    "group",
                 ]
                 .contains(&key.as_str())
                 {
                     return Err(bad(format!(
-                        "ring {number}: unknown key '{key}' (known: name, inner, outer, method, block_ratio, compartments)"
+                        "ring {number}: unknown key '{key}' (known: name, inner, outer, method, block_ratio, compartments, group)"
                     )));
                 }
             }
@@ -400,6 +421,19 @@ impl ZonePlan {
                     format_length(inner_r)
                 )));
             }
+            let group = match table.get("group") {
+                None => None,
+                Some(v) => Some(match v.as_str() {
+                    Some("near") => ZoneGroup::Near,
+                    Some("mid") => ZoneGroup::Middle,
+                    Some("far") => ZoneGroup::Far,
+                    _ => {
+                        return Err(bad(format!(
+                            "ring {number} ({name}): group must be \"near\", \"mid\" or \"far\""
+                        )))
+                    }
+                }),
+            };
             let method_name = table
                 .get("method")
                 .and_then(|v| v.as_str())
@@ -438,12 +472,11 @@ impl ZonePlan {
                     )))
                 }
             };
-            rings.push(Ring {
-                name,
-                inner_m: inner_r,
-                outer_m: outer,
-                method,
-            });
+            let mut ring = Ring::new(name, inner_r, outer, method);
+            if let Some(group) = group {
+                ring.group = group;
+            }
+            rings.push(ring);
             previous_outer = outer;
         }
         let plan = ZonePlan {

@@ -33,17 +33,24 @@ use crate::kernels::column_kernel;
 use crate::kernels::prism_kernel;
 use std::f64::consts::PI;
 
-/// Gauss-Legendre nodes and weights on [-1, 1], 8 points.
-const GAUSS_8: [(f64, f64); 8] = [
-    (-0.960_289_856_497_536_3, 0.101_228_536_290_376_3),
-    (-0.796_666_477_413_626_7, 0.222_381_034_453_374_5),
-    (-0.525_532_409_916_329, 0.313_706_645_877_887_3),
-    (-0.183_434_642_495_649_8, 0.362_683_783_378_362),
-    (0.183_434_642_495_649_8, 0.362_683_783_378_362),
-    (0.525_532_409_916_329, 0.313_706_645_877_887_3),
-    (0.796_666_477_413_626_7, 0.222_381_034_453_374_5),
-    (0.960_289_856_497_536_3, 0.101_228_536_290_376_3),
+/// Gauss-Legendre nodes and weights on [-1, 1], 6 points.
+const GAUSS_6: [(f64, f64); 6] = [
+    (-0.932_469_514_203_152, 0.171_324_492_379_170_3),
+    (-0.661_209_386_466_264_5, 0.360_761_573_048_138_6),
+    (-0.238_619_186_083_196_9, 0.467_913_934_572_691),
+    (0.238_619_186_083_196_9, 0.467_913_934_572_691),
+    (0.661_209_386_466_264_5, 0.360_761_573_048_138_6),
+    (0.932_469_514_203_152, 0.171_324_492_379_170_3),
 ];
+
+/// Rule per angular panel (panels end at the zone's corners and the surface's nodes).
+const ANGULAR: [(f64, f64); 6] = GAUSS_6;
+/// Rule per ray segment (segments end where the ray crosses a kink line).
+const RADIAL: [(f64, f64); 6] = GAUSS_6;
+/// Most break points along one ray.
+const MAX_BREAKS: usize = 96;
+/// Ratio of the geometric grading of the ray's start, from half the station's offset.
+const GRADING: f64 = 8.0;
 
 /// Flat-topped prisms for the cells of the inner box (the `prisms` inner model).
 pub fn prisms_in_box(
@@ -107,41 +114,43 @@ impl Region<'_> {
 
     /// Integral along one ray from 0 to `rho_max`.
     fn ray(&self, ce: f64, cn: f64, rho_max: f64, evaluations: &mut u64) -> f64 {
-        let mut breaks = vec![0.0, rho_max];
-        for &e in &self.lines_e {
-            if ce.abs() > 1e-15 {
-                let t = e / ce;
-                if t > 0.0 && t < rho_max {
-                    breaks.push(t);
-                }
+        let mut breaks = [0.0f64; MAX_BREAKS];
+        let mut count = 0;
+        let mut push = |t: f64| {
+            if t > 0.0 && t < rho_max && count < MAX_BREAKS {
+                breaks[count] = t;
+                count += 1;
             }
+        };
+        push(f64::MIN_POSITIVE);
+        if ce.abs() > 1e-15 {
+            self.lines_e.iter().for_each(|&e| push(e / ce));
         }
-        for &n in &self.lines_n {
-            if cn.abs() > 1e-15 {
-                let t = n / cn;
-                if t > 0.0 && t < rho_max {
-                    breaks.push(t);
-                }
-            }
+        if cn.abs() > 1e-15 {
+            self.lines_n.iter().for_each(|&n| push(n / cn));
         }
         // Grade the start: the integrand varies over a length of the order of the shift.
-        let scale = self.shift.abs().max(1e-3 * rho_max);
-        let mut g = 0.25 * scale;
-        while g < rho_max {
-            breaks.push(g);
-            g *= 4.0;
-        }
-        breaks.sort_by(f64::total_cmp);
-        breaks.dedup_by(|a, b| (*a - *b).abs() < 1e-12 * rho_max);
-        let mut sum = 0.0;
-        for w in breaks.windows(2) {
-            let (a, b) = (w[0], w[1]);
-            let half = 0.5 * (b - a);
-            let mid = 0.5 * (a + b);
-            for &(x, wt) in &GAUSS_8 {
-                sum += wt * half * self.integrand(mid + half * x, ce, cn, rho_max);
+        if self.shift.abs() > 1e-9 * rho_max {
+            let mut g = 0.5 * self.shift.abs();
+            while g < rho_max {
+                push(g);
+                g *= GRADING;
             }
-            *evaluations += GAUSS_8.len() as u64;
+        }
+        let breaks = &mut breaks[..count];
+        breaks.sort_unstable_by(f64::total_cmp);
+        let mut sum = 0.0;
+        let mut a = 0.0;
+        for &b in breaks.iter().skip(1).chain(std::iter::once(&rho_max)) {
+            if b - a > 1e-12 * rho_max {
+                let half = 0.5 * (b - a);
+                let mid = 0.5 * (a + b);
+                for &(x, wt) in &RADIAL {
+                    sum += wt * half * self.integrand(mid + half * x, ce, cn, rho_max);
+                }
+                *evaluations += RADIAL.len() as u64;
+                a = b;
+            }
         }
         sum
     }
@@ -168,7 +177,7 @@ impl Region<'_> {
             let (a, b) = (w[0], w[1]);
             let half = 0.5 * (b - a);
             let mid = 0.5 * (a + b);
-            for &(x, wt) in &GAUSS_8 {
+            for &(x, wt) in &ANGULAR {
                 let theta = mid + half * x;
                 let (cn, ce) = theta.sin_cos();
                 total += wt * half * self.ray(ce, cn, rho_max(ce, cn), evaluations);

@@ -84,8 +84,6 @@ pub struct StationResult {
     pub rings_m: Vec<f64>,
     /// Fraction of the disc of the outer radius that has valid DEM data, 0..1.
     pub coverage: f64,
-    /// DEM cells with data inside the disc.
-    pub cells_used: u64,
     /// Kernel evaluations in the inner zone (prisms, or quadrature points).
     pub inner_elements: u64,
     /// Elements evaluated in each ring (prisms, blocks, compartments).
@@ -203,6 +201,124 @@ pub fn count_disc(dem: &Dem, x: f64, y: f64, radius: f64) -> DiscCount {
     count
 }
 
+/// Cell positions inside the disc: all of them (the grid extended with its own
+/// spacing) and those on the grid, counted row by row.
+fn disc_positions(dem: &Dem, x: f64, y: f64, radius: f64) -> (u64, u64) {
+    let mut on_grid = 0u64;
+    let mut total = 0u64;
+    let (r_lo, r_hi) = index_range(-dem.y_top, dem.dy, -y, radius);
+    for r in r_lo..=r_hi {
+        let cy = dem.y_top - (r as f64 + 0.5) * dem.dy;
+        let half = (radius * radius - (cy - y) * (cy - y)).max(0.0).sqrt();
+        let (c_lo, c_hi) = index_range(dem.x_left, dem.dx, x, half);
+        if c_hi < c_lo {
+            continue;
+        }
+        total += (c_hi - c_lo + 1) as u64;
+        if r >= 0 && r < dem.rows as i64 {
+            let a = c_lo.max(0);
+            let b = c_hi.min(dem.cols as i64 - 1);
+            if b >= a {
+                on_grid += (b - a + 1) as u64;
+            }
+        }
+    }
+    (total, on_grid)
+}
+
+/// The coverage of [`count_disc`], in time proportional to the disc's radius in cells
+/// rather than its area. Nodata cells are counted by a walk over the pyramid: blocks
+/// without nodata need no work at all, blocks wholly inside the disc give their count of
+/// nodata cells, and only blocks that hold nodata and are cut by the circle are split.
+/// A disc that lies on the grid and meets no nodata has coverage exactly 1 without
+/// counting its cells.
+pub fn coverage_with_pyramid(dem: &Dem, pyramid: &Pyramid, x: f64, y: f64, radius: f64) -> f64 {
+    let nodata = nodata_in_disc(dem, pyramid, x, y, radius);
+    let on_grid_entirely = x - radius >= dem.x_left - 0.5 * dem.dx
+        && x + radius <= dem.x_right() + 0.5 * dem.dx
+        && y - radius >= dem.y_bottom() - 0.5 * dem.dy
+        && y + radius <= dem.y_top + 0.5 * dem.dy;
+    if nodata == 0 && on_grid_entirely {
+        return 1.0;
+    }
+    let (total, on_grid) = disc_positions(dem, x, y, radius);
+    DiscCount {
+        valid: on_grid - nodata,
+        nodata,
+        outside: total - on_grid,
+    }
+    .coverage()
+}
+
+/// Nodata cells of the grid whose centres lie inside the disc.
+fn nodata_in_disc(dem: &Dem, pyramid: &Pyramid, x: f64, y: f64, radius: f64) -> u64 {
+    // Cells with data, by a walk over the pyramid.
+    let mut top = 0u32;
+    while (1usize << top) < dem.cols.max(dem.rows) {
+        top += 1;
+    }
+    let r2 = radius * radius;
+    let mut nodata = 0u64;
+    let mut stack = vec![(top, 0usize, 0usize)];
+    while let Some((level, bcol, brow)) = stack.pop() {
+        let size = 1usize << level;
+        let (c0, r0) = (bcol * size, brow * size);
+        if c0 >= dem.cols || r0 >= dem.rows {
+            continue;
+        }
+        let (c1, r1) = ((c0 + size).min(dem.cols), (r0 + size).min(dem.rows));
+        let e_lo = dem.x_left + c0 as f64 * dem.dx - x;
+        let e_hi = dem.x_left + c1 as f64 * dem.dx - x;
+        let n_hi = dem.y_top - r0 as f64 * dem.dy - y;
+        let n_lo = dem.y_top - r1 as f64 * dem.dy - y;
+        let near_e = if e_lo > 0.0 {
+            e_lo
+        } else if e_hi < 0.0 {
+            -e_hi
+        } else {
+            0.0
+        };
+        let near_n = if n_lo > 0.0 {
+            n_lo
+        } else if n_hi < 0.0 {
+            -n_hi
+        } else {
+            0.0
+        };
+        if near_e * near_e + near_n * near_n >= r2 {
+            continue;
+        }
+        if level == 0 {
+            let e = 0.5 * (e_lo + e_hi);
+            let n = 0.5 * (n_lo + n_hi);
+            if e * e + n * n < r2 && dem.height(c0, r0).is_none() {
+                nodata += 1;
+            }
+            continue;
+        }
+        let far_e = e_lo.abs().max(e_hi.abs()) - 0.5 * dem.dx;
+        let far_n = n_lo.abs().max(n_hi.abs()) - 0.5 * dem.dy;
+        let with_data = match pyramid.level(level) {
+            Some(l) => l.blocks[brow * l.cols + bcol].n as u64,
+            None => crate::dem::pyramid::block_from_dem(dem, level, bcol, brow).n as u64,
+        };
+        let cells = ((c1 - c0) * (r1 - r0)) as u64;
+        if with_data == cells {
+            // No nodata in this block: nothing to subtract, whether the circle cuts it or not.
+            continue;
+        }
+        // Block centres lie inside the rectangle shrunk by half a cell.
+        if far_e * far_e + far_n * far_n < r2 {
+            nodata += cells - with_data;
+        } else {
+            for (dc, dr) in [(0, 0), (1, 0), (0, 1), (1, 1)] {
+                stack.push((level - 1, 2 * bcol + dc, 2 * brow + dr));
+            }
+        }
+    }
+    nodata
+}
+
 /// The cell index box of a cell-square inner zone: columns and rows `lo..=hi`
 /// (possibly off the grid).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -265,7 +381,11 @@ impl<'a> Engine<'a> {
 
     /// Computes the correction at one point.
     pub fn compute(&self, p: Point) -> StationResult {
-        let count = count_disc(self.dem, p.x, p.y, self.config.outer_radius_m);
+        let radius = self.config.outer_radius_m;
+        let coverage = match &self.pyramid {
+            Some(pyramid) => coverage_with_pyramid(self.dem, pyramid, p.x, p.y, radius),
+            None => count_disc(self.dem, p.x, p.y, radius).coverage(),
+        };
         let mut parts = Parts::new(self.plan.rings.len());
         match self.config.method {
             Method::Exact => exact::exact_parts(self, p, &mut parts),
@@ -275,8 +395,7 @@ impl<'a> Engine<'a> {
             dem_elev_m: self.dem.bilinear(p.x, p.y),
             inner_m: parts.inner,
             rings_m: parts.rings,
-            coverage: count.coverage(),
-            cells_used: count.valid,
+            coverage,
             inner_elements: parts.inner_elements,
             ring_elements: parts.ring_elements,
         }
@@ -387,5 +506,38 @@ mod tests {
         assert!((inside.valid as f64 - expected).abs() / expected < 0.01);
         let edge = count_disc(&dem, 0.0, 500.0, 200.0);
         assert!((edge.coverage() - 0.5).abs() < 0.02, "{}", edge.coverage());
+    }
+
+    #[test]
+    fn pyramid_disc_count_equals_the_cell_by_cell_count() {
+        let mut dem = Dem::from_fn("holes", 203, 171, 0.0, 1710.0, 10.0, |x, y| x + y);
+        for i in (0..dem.heights.len()).step_by(97) {
+            dem.heights[i] = f32::NAN;
+        }
+        for i in 5000..5400 {
+            dem.heights[i] = f32::NAN;
+        }
+        let pyramid = Pyramid::build(&dem);
+        let clean = Dem::from_fn("clean", 203, 171, 0.0, 1710.0, 10.0, |x, y| x - y);
+        let clean_pyramid = Pyramid::build(&clean);
+        assert_eq!(
+            coverage_with_pyramid(&clean, &clean_pyramid, 1015.0, 855.0, 600.0),
+            1.0
+        );
+        let edge = coverage_with_pyramid(&clean, &clean_pyramid, 1015.0, 855.0, 900.0);
+        assert_eq!(edge, count_disc(&clean, 1015.0, 855.0, 900.0).coverage());
+        assert!(edge < 1.0);
+        for (x, y, r) in [
+            (1015.0, 855.0, 600.0),
+            (3.0, 7.0, 450.0),
+            (1000.0, 300.0, 2000.0),
+            (1234.5, 987.6, 45.0),
+        ] {
+            assert_eq!(
+                coverage_with_pyramid(&dem, &pyramid, x, y, r),
+                count_disc(&dem, x, y, r).coverage(),
+                "{x} {y} {r}"
+            );
+        }
     }
 }
