@@ -14,14 +14,15 @@
 //! ```
 //!
 //! Level 1 is not stored: its four cells are read from the DEM when needed, which keeps
-//! the pyramid below a third of the DEM's own size (levels 2 and up hold 1/12 of the
-//! cells, 40 bytes each).
+//! the pyramid at a third of the DEM's own size (levels 2 and up hold 1/12 of the cells,
+//! 48 bytes each). Two third moments, E[(h - h_mean)^2 (e - e_mean)] and the same with
+//! the northing, say where in the block its height spread lies.
 
 use super::Dem;
 use rayon::prelude::*;
 
 /// Statistics of the cells of one block with data. Offsets are from the block's
-/// geometric centre, m; second moments are per cell (divided by `n`), about the centroid.
+/// geometric centre, m; moments are per cell (divided by `n`), about the centroid.
 #[derive(Debug, Clone, Copy, Default, PartialEq)]
 pub struct BlockStats {
     /// Cells with data.
@@ -44,11 +45,18 @@ pub struct BlockStats {
     pub en: f32,
     /// Variance of the cell-centre northings, m^2.
     pub nn: f32,
+    /// Third moment E[(h - h_mean)^2 (e - e_mean)], m^3: where in the block the height
+    /// spread lies (a step or a wall near one side).
+    pub hhe: f32,
+    /// Third moment E[(h - h_mean)^2 (n - n_mean)], m^3.
+    pub hhn: f32,
 }
 
-/// Accumulates block statistics in f64 (moments about a fixed origin, then centred).
+/// Accumulates block statistics in f64: raw moments about a fixed origin (heights about
+/// the first height added, which keeps them well conditioned), centred at the end.
 #[derive(Debug, Clone, Copy, Default)]
 pub struct StatsAccumulator {
+    h0: Option<f64>,
     n: f64,
     se: f64,
     sn: f64,
@@ -59,13 +67,20 @@ pub struct StatsAccumulator {
     see: f64,
     sen: f64,
     snn: f64,
+    shhe: f64,
+    shhn: f64,
 }
 
 impl StatsAccumulator {
+    fn origin(&mut self, h: f64) -> f64 {
+        *self.h0.get_or_insert(h)
+    }
+
     /// Adds one cell at offset `(e, n)` from the accumulator's origin with height `h`,
     /// weight `w` (1 for a cell).
     #[inline]
     pub fn add_point(&mut self, e: f64, n: f64, h: f64, w: f64) {
+        let h = h - self.origin(h);
         self.n += w;
         self.se += w * e;
         self.sn += w * n;
@@ -76,6 +91,8 @@ impl StatsAccumulator {
         self.see += w * e * e;
         self.sen += w * e * n;
         self.snn += w * n * n;
+        self.shhe += w * h * h * e;
+        self.shhn += w * h * h * n;
     }
 
     /// Adds a whole block whose centre is at offset `(ce, cn)` from this origin.
@@ -86,18 +103,22 @@ impl StatsAccumulator {
         }
         let n = b.n as f64;
         let e = ce + b.ex as f64;
-        let nn_ = cn + b.ny as f64;
-        let h = b.h as f64;
+        let y = cn + b.ny as f64;
+        let h = b.h as f64 - self.origin(b.h as f64);
+        let (hh, he, hn) = (b.hh as f64, b.he as f64, b.hn as f64);
         self.n += n;
         self.se += n * e;
-        self.sn += n * nn_;
+        self.sn += n * y;
         self.sh += n * h;
-        self.shh += n * (b.hh as f64 + h * h);
-        self.she += n * (b.he as f64 + h * e);
-        self.shn += n * (b.hn as f64 + h * nn_);
+        self.shh += n * (hh + h * h);
+        self.she += n * (he + h * e);
+        self.shn += n * (hn + h * y);
         self.see += n * (b.ee as f64 + e * e);
-        self.sen += n * (b.en as f64 + e * nn_);
-        self.snn += n * (b.nn as f64 + nn_ * nn_);
+        self.sen += n * (b.en as f64 + e * y);
+        self.snn += n * (b.nn as f64 + y * y);
+        // E[h^2 e] = M_hhe + M_hh e + 2 h M_he + h^2 e about this origin.
+        self.shhe += n * (b.hhe as f64 + hh * e + 2.0 * h * he + h * h * e);
+        self.shhn += n * (b.hhn as f64 + hh * y + 2.0 * h * hn + h * h * y);
     }
 
     /// The statistics, centred on their centroid; offsets relative to this origin.
@@ -110,17 +131,23 @@ impl StatsAccumulator {
         let y = self.sn / n;
         let h = self.sh / n;
         let cov = |sab: f64, a: f64, b: f64| (sab / n - a * b) as f32;
+        // E[(h - h)^2 (e - e)] = E[h^2 e] - 2 h E[h e] - e E[h^2] + 2 h^2 e.
+        let third = |shhx: f64, shx: f64, x: f64| {
+            (shhx / n - 2.0 * h * shx / n - x * self.shh / n + 2.0 * h * h * x) as f32
+        };
         BlockStats {
             n: n as f32,
             ex: e as f32,
             ny: y as f32,
-            h: h as f32,
+            h: (h + self.h0.unwrap_or(0.0)) as f32,
             hh: cov(self.shh, h, h).max(0.0),
             he: cov(self.she, h, e),
             hn: cov(self.shn, h, y),
             ee: cov(self.see, e, e).max(0.0),
             en: cov(self.sen, e, y),
             nn: cov(self.snn, y, y).max(0.0),
+            hhe: third(self.shhe, self.she, e),
+            hhn: third(self.shhn, self.shn, y),
         }
     }
 }
@@ -307,6 +334,19 @@ mod tests {
                     assert!(close(direct.he, built.he, direct.he.abs().max(direct.hh)));
                     assert!(close(direct.ee, built.ee, direct.ee));
                     assert!(close(direct.ex, built.ex, 30.0));
+                    let scale = direct.hh * 300.0;
+                    assert!(
+                        close(direct.hhe, built.hhe, scale),
+                        "{} vs {}",
+                        direct.hhe,
+                        built.hhe
+                    );
+                    assert!(
+                        close(direct.hhn, built.hhn, scale),
+                        "{} vs {}",
+                        direct.hhn,
+                        built.hhn
+                    );
                 }
             }
         }

@@ -51,20 +51,40 @@ struct Moments {
     ee: f64,
     en: f64,
     nn: f64,
+    hhe: f64,
+    hhn: f64,
 }
 
-/// Second-order terms of the column kernel at the centroid (see the module docs).
-fn taylor_terms(m: &Moments, vx: f64, vy: f64, curvature: f64) -> (f64, f64, f64) {
+/// Terms of the expansion of the column kernel about the centroid (see the module docs):
+/// the value, the height terms, the spatial terms, and the size of the third- and
+/// fourth-order terms among the height terms (an error indicator).
+fn taylor_terms(m: &Moments, vx: f64, vy: f64, curvature: f64) -> (f64, f64, f64, f64) {
     let r = m.e.hypot(m.nn_);
     let t = column_taylor(r, m.h, curvature);
     let (ue, un) = (m.e / r, m.nn_ / r);
-    let fr_over_r = t.f_r / r;
-    let f_ee = ue * ue * t.f_rr + un * un * fr_over_r;
-    let f_nn = un * un * t.f_rr + ue * ue * fr_over_r;
-    let f_en = ue * un * (t.f_rr - fr_over_r);
-    let height_terms = 0.5 * t.f_hh * m.hh + ue * t.f_rh * m.he + un * t.f_rh * m.hn;
-    let spatial_terms = 0.5 * (f_ee * (m.ee + vx) + 2.0 * f_en * m.en + f_nn * (m.nn + vy));
-    (t.f, height_terms, spatial_terms)
+    // Horizontal second derivatives of a function of r = sqrt(e^2 + n^2).
+    let horizontal = |d_rr: f64, d_r: f64| {
+        let d_r_over_r = d_r / r;
+        (
+            ue * ue * d_rr + un * un * d_r_over_r,
+            ue * un * (d_rr - d_r_over_r),
+            un * un * d_rr + ue * ue * d_r_over_r,
+        )
+    };
+    let (ee, en, nn) = (m.ee + vx, m.en, m.nn + vy);
+    let (f_ee, f_en, f_nn) = horizontal(t.f_rr, t.f_r);
+    // The height variance weighted by the kernel's mean curvature over the block rather
+    // than at its centroid: the fourth-order mixed term 1/4 f_hh,xx C_hh C_xx, with height
+    // spread and position taken as independent. It matters where the heights of a block
+    // jump (a cliff, a valley wall) while their mean is small against the spread.
+    let (g_ee, g_en, g_nn) = horizontal(t.f_hhrr, t.f_hhr);
+    // The third-order term 1/2 f_hh,x E[dh^2 dx]: where in the block the spread lies.
+    let third = 0.5 * t.f_hhr * (ue * m.hhe + un * m.hhn);
+    let fourth = 0.25 * m.hh * (g_ee * ee + 2.0 * g_en * en + g_nn * nn);
+    let height_terms =
+        0.5 * t.f_hh * m.hh + ue * t.f_rh * m.he + un * t.f_rh * m.hn + third + fourth;
+    let spatial_terms = 0.5 * (f_ee * ee + 2.0 * f_en * en + f_nn * nn);
+    (t.f, height_terms, spatial_terms, third.abs() + fourth.abs())
 }
 
 /// Statistics of block `(bcol, brow)` at `level` (>= 1).
@@ -129,6 +149,15 @@ fn inside_geometry(
     let (e, n) = (se / k, sn / k);
     Some((k, e, n, see / k - e * e, sen / k - e * n, snn / k - n * n))
 }
+
+/// Blocks whose third- and fourth-order height terms exceed this fraction of their value
+/// are split (measured on a ring of sharp-edged relief; see the README).
+pub const HIGH_ORDER_MAX_FRACTION: f64 = 0.05;
+
+/// Blocks cut by the edge of the zone are split until their side is at most this
+/// fraction of the edge's radius: their inside part is estimated from the block's height
+/// trend, which a large block crossing a ridge or a valley at the edge gets wrong.
+pub const CUT_BLOCK_MAX_RATIO: f64 = 0.1;
 
 /// Most row bands scanned when a block cut by the zone's edge is reduced to its inside cells.
 const MAX_BANDS: usize = 64;
@@ -224,6 +253,7 @@ pub fn walk(
             parts.add(
                 ring_of(s2.sqrt()),
                 prism_kernel(e_lo, e_hi, n_lo, n_hi, -d, h - p.elev - d),
+                cell_area,
             );
             continue;
         }
@@ -275,10 +305,16 @@ pub fn walk(
             ee: stats.ee as f64,
             en: stats.en as f64,
             nn: stats.nn as f64,
+            hhe: stats.hhe as f64,
+            hhn: stats.hhn as f64,
         };
         let far_corner_e = e_lo.abs().max(e_hi.abs());
         let far_corner_n = n_lo.abs().max(n_hi.abs());
         let cut = far_corner_e * far_corner_e + far_corner_n * far_corner_n >= outer2;
+        if cut && (size as f64) * side > CUT_BLOCK_MAX_RATIO * outer_m {
+            split(&mut stack);
+            continue;
+        }
         if cut {
             let Some((k, e, n, ee, en, nn)) = inside_geometry(dem, p, c0, c1, r0, r1, outer_m)
             else {
@@ -306,11 +342,20 @@ pub fn walk(
                 ee,
                 en,
                 nn,
+                hhe: m.hhe,
+                hhn: m.hhn,
             };
         }
         let r = m.e.hypot(m.nn_);
-        let (f, height_terms, spatial_terms) = taylor_terms(&m, vx, vy, curvature);
-        let value = m.n * cell_area * (f + height_terms + spatial_terms);
-        parts.add(ring_of(r), value);
+        let (f, height_terms, spatial_terms, high_order) = taylor_terms(&m, vx, vy, curvature);
+        let per_cell = f + height_terms + spatial_terms;
+        // Where the higher-order terms are not small the expansion is not to be trusted:
+        // split (blocks cut by the zone's edge are kept; they are far and small in effect).
+        if !cut && high_order > HIGH_ORDER_MAX_FRACTION * per_cell.abs() {
+            split(&mut stack);
+            continue;
+        }
+        let value = m.n * cell_area * per_cell;
+        parts.add(ring_of(r), value, m.n * cell_area);
     }
 }

@@ -44,6 +44,7 @@ pub fn exact_parts(engine: &Engine, p: Point, parts: &mut Parts) {
     let r_lo = r_lo.max(0);
     let r_hi = r_hi.min(dem.rows as i64 - 1);
     let side = dem.dx.max(dem.dy);
+    let cell_area = dem.cell_area();
     let shared = curvature == 0.0;
     let mut base_top: Vec<f64> = Vec::new();
     let mut base_bottom: Vec<f64> = Vec::new();
@@ -89,10 +90,12 @@ pub fn exact_parts(engine: &Engine, p: Point, parts: &mut Parts) {
             }
             let in_inner = inner_box.contains(c as i64, r);
             if in_inner && surface {
+                parts.area_m2 += cell_area;
                 continue;
             }
             let dh = h - p.elev;
             if dh == 0.0 {
+                parts.area_m2 += cell_area;
                 continue;
             }
             let drop = 0.5 * curvature * s2;
@@ -111,8 +114,9 @@ pub fn exact_parts(engine: &Engine, p: Point, parts: &mut Parts) {
             if in_inner {
                 parts.inner += k;
                 parts.inner_elements += 1;
+                parts.area_m2 += cell_area;
             } else {
-                parts.add(ring_of(s2), k);
+                parts.add(ring_of(s2), k, cell_area);
             }
         }
     }

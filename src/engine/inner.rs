@@ -52,6 +52,22 @@ const MAX_BREAKS: usize = 96;
 /// Ratio of the geometric grading of the ray's start, from half the station's offset.
 const GRADING: f64 = 8.0;
 
+/// Area of the inner box's cells with data whose centres lie within the outer radius, m^2.
+pub fn box_area(dem: &Dem, p: Point, cells: &CellBox, outer_m: f64) -> f64 {
+    let mut n = 0;
+    for row in cells.row_lo.max(0)..=cells.row_hi.min(dem.rows as i64 - 1) {
+        for col in cells.col_lo.max(0)..=cells.col_hi.min(dem.cols as i64 - 1) {
+            let (c, r) = (col as usize, row as usize);
+            let e = dem.col_center_x(c) - p.x;
+            let n_ = dem.row_center_y(r) - p.y;
+            if dem.height(c, r).is_some() && e * e + n_ * n_ < outer_m * outer_m {
+                n += 1;
+            }
+        }
+    }
+    n as f64 * dem.cell_area()
+}
+
 /// Flat-topped prisms for the cells of the inner box (the `prisms` inner model).
 pub fn prisms_in_box(
     dem: &Dem,
@@ -87,9 +103,77 @@ pub fn prisms_in_box(
     total
 }
 
+/// The cell-centre heights around a region, copied out of the DEM so that the bilinear
+/// surface can be evaluated without the edge and nodata checks of [`Dem::bilinear`]
+/// (which the caller falls back to where the patch cannot answer).
+struct Patch {
+    col0: i64,
+    row0: i64,
+    cols: usize,
+    rows: usize,
+    x_left: f64,
+    y_top: f64,
+    dx: f64,
+    dy: f64,
+    heights: Vec<f64>,
+}
+
+impl Patch {
+    /// The cells whose centres surround every point of `[x0, x1] x [y0, y1]`.
+    fn covering(dem: &Dem, x0: f64, x1: f64, y0: f64, y1: f64) -> Patch {
+        let col0 = ((x0 - dem.x_left) / dem.dx - 0.5).floor() as i64;
+        let col1 = ((x1 - dem.x_left) / dem.dx - 0.5).floor() as i64 + 1;
+        let row0 = ((dem.y_top - y1) / dem.dy - 0.5).floor() as i64;
+        let row1 = ((dem.y_top - y0) / dem.dy - 0.5).floor() as i64 + 1;
+        let (cols, rows) = ((col1 - col0 + 1) as usize, (row1 - row0 + 1) as usize);
+        let mut heights = Vec::with_capacity(cols * rows);
+        for r in row0..=row1 {
+            for c in col0..=col1 {
+                let on = c >= 0 && r >= 0 && (c as usize) < dem.cols && (r as usize) < dem.rows;
+                heights.push(if on {
+                    dem.height(c as usize, r as usize).unwrap_or(f64::NAN)
+                } else {
+                    f64::NAN
+                });
+            }
+        }
+        Patch {
+            col0,
+            row0,
+            cols,
+            rows,
+            x_left: dem.x_left,
+            y_top: dem.y_top,
+            dx: dem.dx,
+            dy: dem.dy,
+            heights,
+        }
+    }
+
+    /// Bilinear height through the four surrounding centres, `None` if any is missing or
+    /// the point is off the patch.
+    #[inline]
+    fn bilinear(&self, x: f64, y: f64) -> Option<f64> {
+        let fx = (x - self.x_left) / self.dx - 0.5 - self.col0 as f64;
+        let fy = (self.y_top - y) / self.dy - 0.5 - self.row0 as f64;
+        let (c, r) = (fx.floor(), fy.floor());
+        if c < 0.0 || r < 0.0 || c as usize + 1 >= self.cols || r as usize + 1 >= self.rows {
+            return None;
+        }
+        let (tx, ty) = (fx - c, fy - r);
+        let i = r as usize * self.cols + c as usize;
+        let (a, b) = (self.heights[i], self.heights[i + 1]);
+        let (cc, d) = (self.heights[i + self.cols], self.heights[i + self.cols + 1]);
+        let h = (a * (1.0 - tx) + b * tx) * (1.0 - ty) + (cc * (1.0 - tx) + d * tx) * ty;
+        h.is_finite().then_some(h)
+    }
+}
+
 /// Geometry of a star-shaped inner region around the station.
 struct Region<'a> {
     dem: &'a Dem,
+    /// The DEM's cells around the region, for fast interpolation.
+    patch: Patch,
     p: Point,
     /// Station height minus the DEM surface at the station, m.
     shift: f64,
@@ -104,7 +188,12 @@ impl Region<'_> {
     /// Integrand `rho c(rho, u_ref, u_top)` at distance `rho` along unit direction `(ce, cn)`.
     #[inline]
     fn integrand(&self, rho: f64, ce: f64, cn: f64, rho_max: f64) -> f64 {
-        let Some(b) = self.dem.bilinear(self.p.x + rho * ce, self.p.y + rho * cn) else {
+        let (x, y) = (self.p.x + rho * ce, self.p.y + rho * cn);
+        let Some(b) = self
+            .patch
+            .bilinear(x, y)
+            .or_else(|| self.dem.bilinear(x, y))
+        else {
             return 0.0;
         };
         let z = b + self.shift * (1.0 - rho / rho_max) - self.p.elev;
@@ -254,6 +343,7 @@ pub fn surface_square(
     }
     let region = Region {
         dem,
+        patch: Patch::covering(dem, p.x + e_min, p.x + e_max, p.y + n_min, p.y + n_max),
         p,
         shift: p.elev - b0,
         curvature,
@@ -298,6 +388,13 @@ pub fn surface_disc(
         .collect::<Vec<_>>();
     let region = Region {
         dem,
+        patch: Patch::covering(
+            dem,
+            p.x - radius_m,
+            p.x + radius_m,
+            p.y - radius_m,
+            p.y + radius_m,
+        ),
         p,
         shift: p.elev - b0,
         curvature,

@@ -88,6 +88,9 @@ pub struct StationResult {
     pub inner_elements: u64,
     /// Elements evaluated in each ring (prisms, blocks, compartments).
     pub ring_elements: Vec<u64>,
+    /// Horizontal area the elements covered, m^2: a check that the zones tile the disc
+    /// (no area counted twice or missed).
+    pub area_m2: f64,
 }
 
 impl StationResult {
@@ -147,20 +150,14 @@ impl DiscCount {
     }
 }
 
-/// Range of indices `i` with `|origin + (i + 0.5) step - centre| < half_width`.
+/// Range of indices `i` with `|origin + (i + 0.5) step - centre| < half_width` (empty
+/// when the second is below the first): the integers strictly between
+/// `(centre - half_width - origin) / step - 0.5` and `(centre + half_width - origin) / step - 0.5`.
+#[inline]
 pub(crate) fn index_range(origin: f64, step: f64, centre: f64, half_width: f64) -> (i64, i64) {
-    let lo = ((centre - half_width - origin) / step - 0.5).floor() as i64;
-    let hi = ((centre + half_width - origin) / step - 0.5).ceil() as i64;
-    let inside = |i: i64| ((origin + (i as f64 + 0.5) * step) - centre).abs() < half_width;
-    let mut a = lo;
-    while a <= hi && !inside(a) {
-        a += 1;
-    }
-    let mut b = hi;
-    while b >= a && !inside(b) {
-        b -= 1;
-    }
-    (a, b)
+    let a = (centre - half_width - origin) / step - 0.5;
+    let b = (centre + half_width - origin) / step - 0.5;
+    (a.floor() as i64 + 1, b.ceil() as i64 - 1)
 }
 
 /// Counts the cells of `dem` (extended beyond its edges with its own spacing) whose
@@ -398,6 +395,7 @@ impl<'a> Engine<'a> {
             coverage,
             inner_elements: parts.inner_elements,
             ring_elements: parts.ring_elements,
+            area_m2: parts.area_m2,
         }
     }
 
@@ -427,6 +425,7 @@ impl<'a> Engine<'a> {
                         &mut parts.inner_elements,
                     ),
                 };
+                parts.area_m2 += inner::box_area(self.dem, p, &cells, self.config.outer_radius_m);
                 Some(cells)
             }
             InnerZone::Disc { radius_m } => {
@@ -439,6 +438,7 @@ impl<'a> Engine<'a> {
                         &mut parts.inner_elements,
                     );
                 }
+                parts.area_m2 += std::f64::consts::PI * radius_m * radius_m;
                 None
             }
         };
@@ -472,6 +472,7 @@ pub struct Parts {
     pub rings: Vec<f64>,
     pub inner_elements: u64,
     pub ring_elements: Vec<u64>,
+    pub area_m2: f64,
 }
 
 impl Parts {
@@ -481,14 +482,16 @@ impl Parts {
             rings: vec![0.0; rings],
             inner_elements: 0,
             ring_elements: vec![0; rings],
+            area_m2: 0.0,
         }
     }
 
-    /// Adds one element's kernel to ring `ring`.
+    /// Adds one element's kernel to ring `ring`; `area_m2` is the element's footprint.
     #[inline]
-    pub fn add(&mut self, ring: usize, kernel: f64) {
+    pub fn add(&mut self, ring: usize, kernel: f64, area_m2: f64) {
         self.rings[ring] += kernel;
         self.ring_elements[ring] += 1;
+        self.area_m2 += area_m2;
     }
 }
 

@@ -41,7 +41,7 @@ pub fn sector_rings(
 ) {
     for (i, ring) in plan.rings.iter().enumerate() {
         if let RingMethod::Sectors { compartments } = ring.method {
-            parts.rings[i] += ring_of_sectors(
+            let (kernel, area) = ring_of_sectors(
                 dem,
                 pyramid,
                 p,
@@ -50,12 +50,15 @@ pub fn sector_rings(
                 ring.outer_m,
                 compartments,
             );
+            parts.rings[i] += kernel;
             parts.ring_elements[i] += compartments as u64;
+            parts.area_m2 += area;
         }
     }
 }
 
-/// Kernel sum of one ring of `n` compartments from `r1` to `r2`.
+/// Kernel sum (m) of one ring of `n` compartments from `r1` to `r2`, and the area with
+/// data it covered (m^2).
 #[allow(clippy::too_many_arguments)]
 pub fn ring_of_sectors(
     dem: &Dem,
@@ -65,7 +68,7 @@ pub fn ring_of_sectors(
     r1: f64,
     r2: f64,
     n: usize,
-) -> f64 {
+) -> (f64, f64) {
     let theta = 2.0 * PI / n as f64;
     let width = r2 - r1;
     let arc = theta * 0.5 * (r1 + r2);
@@ -93,6 +96,7 @@ pub fn ring_of_sectors(
         None
     };
     let mut total = 0.0;
+    let mut covered = 0.0;
     for j in 0..n {
         let (mut w, mut sh, mut shh, mut sr, mut srh) = (0.0, 0.0, 0.0, 0.0, 0.0);
         for kt in 0..m_t {
@@ -136,6 +140,7 @@ pub fn ring_of_sectors(
             continue;
         }
         let coverage = w / (m_r * m_t) as f64;
+        covered += coverage * area;
         let h = sh / w;
         let var = (shh / w - h * h).max(0.0);
         let cov_rh = srh / w - (sr / w) * h;
@@ -144,5 +149,5 @@ pub fn ring_of_sectors(
         let closed = ring_sector_kernel(theta, r1, r2, -drop, rel - drop);
         total += coverage * (closed + area * (0.5 * t.f_hh * var + t.f_rh * cov_rh));
     }
-    total
+    (total, covered)
 }

@@ -82,6 +82,10 @@ pub struct ColumnTaylor {
     pub f_rh: f64,
     /// d2f/dh2
     pub f_hh: f64,
+    /// d3f/dh2 dr
+    pub f_hhr: f64,
+    /// d4f/dh2 dr2
+    pub f_hhrr: f64,
 }
 
 /// See [`ColumnTaylor`]. `r > 0`.
@@ -96,12 +100,35 @@ pub fn column_taylor(r: f64, h: f64, curvature: f64) -> ColumnTaylor {
     // Total r-derivatives of psi(r, u(r)) with u_r = -d_r, u_rr = -d_rr.
     let total_r = |p: &PsiDerivatives| p.r - p.u * d_r;
     let total_rr = |p: &PsiDerivatives| p.rr - 2.0 * p.ru * d_r + p.uu * d_r * d_r - p.u * d_rr;
+    // f_hh(r) = -psi_uu(r, u(r)) and its total r-derivatives.
+    let c = psi_uu_derivatives(r, u_top);
+    let (u_r, u_rr) = (-d_r, -d_rr);
     ColumnTaylor {
         f: column_kernel(r, u_ref, u_top),
         f_r: total_r(&a) - total_r(&b),
         f_rr: total_rr(&a) - total_rr(&b),
         f_rh: -(b.ru - b.uu * d_r),
         f_hh: -b.uu,
+        f_hhr: -(c.r + c.u * u_r),
+        f_hhrr: -(c.rr + 2.0 * c.ru * u_r + c.uu * u_r * u_r + c.u * u_rr),
+    }
+}
+
+/// Derivatives of `psi_uu(r, u) = -1/s^3 + 3 u^2/s^5` (`s^2 = r^2 + u^2`): by `r`, `u`,
+/// `rr`, `ru`, `uu`.
+fn psi_uu_derivatives(r: f64, u: f64) -> PsiDerivatives {
+    let s2 = r * r + u * u;
+    let s = s2.sqrt();
+    let s5 = s2 * s2 * s;
+    let s7 = s5 * s2;
+    let s9 = s7 * s2;
+    let (u2, r2) = (u * u, r * r);
+    PsiDerivatives {
+        r: 3.0 * r / s5 - 15.0 * u2 * r / s7,
+        u: 9.0 * u / s5 - 15.0 * u2 * u / s7,
+        rr: 3.0 / s5 - 15.0 * (r2 + u2) / s7 + 105.0 * u2 * r2 / s9,
+        ru: -45.0 * u * r / s7 + 105.0 * u2 * u * r / s9,
+        uu: 9.0 / s5 - 90.0 * u2 / s7 + 105.0 * u2 * u2 / s9,
     }
 }
 
@@ -145,6 +172,12 @@ mod tests {
             assert!(close(t.f_rr, f_rr), "f_rr {} vs {}", t.f_rr, f_rr);
             assert!(close(t.f_hh, f_hh), "f_hh {} vs {}", t.f_hh, f_hh);
             assert!(close(t.f_rh, f_rh), "f_rh {} vs {}", t.f_rh, f_rh);
+            // The fourth-order mixed terms, from finite differences of f_hh.
+            let g = |r: f64| column_taylor(r, h, k).f_hh;
+            let g_r = (g(r + dr) - g(r - dr)) / (2.0 * dr);
+            let g_rr = (g(r + dr) - 2.0 * g(r) + g(r - dr)) / (dr * dr);
+            assert!(close(t.f_hhr, g_r), "f_hhr {} vs {}", t.f_hhr, g_r);
+            assert!(close(t.f_hhrr, g_rr), "f_hhrr {} vs {}", t.f_hhrr, g_rr);
         }
     }
 }
