@@ -10,6 +10,7 @@
 //! - [`cli`] and [`app`]: the command line and what each command does.
 
 pub mod app;
+pub mod benchdata;
 pub mod cli;
 pub mod dem;
 pub mod engine;

@@ -61,6 +61,8 @@ pub fn read_dem(path: &Path) -> Result<Dem, DemError> {
     if !path.exists() {
         return Err(DemError::NotFound { path: p });
     }
+    // The whole grid is read once; GDAL's block cache would only hold a second copy.
+    let _ = gdal::config::set_config_option("GDAL_CACHEMAX", "64");
     let ds = Dataset::open(path).map_err(|e| DemError::Unreadable {
         path: p.clone(),
         detail: e.to_string(),
@@ -113,8 +115,10 @@ pub fn read_dem(path: &Path) -> Result<Dem, DemError> {
         unit,
     })?;
     let (cols, rows) = ds.raster_size();
+    // Read straight into f32 (the DEM's own precision for almost every DEM) so that no
+    // second, wider copy of the grid is ever held.
     let buffer = band
-        .read_as::<f64>((0, 0), (cols, rows), (cols, rows), None)
+        .read_as::<f32>((0, 0), (cols, rows), (cols, rows), None)
         .map_err(|e| DemError::Read {
             path: p.clone(),
             detail: e.to_string(),
@@ -122,21 +126,20 @@ pub fn read_dem(path: &Path) -> Result<Dem, DemError> {
     let nodata = band.no_data_value();
     let scale = band.scale().unwrap_or(1.0);
     let offset = band.offset().unwrap_or(0.0);
-    let (_, values) = buffer.into_shape_and_vec();
-    let heights: Vec<f32> = values
-        .into_iter()
-        .map(|v| {
-            let is_nodata = match nodata {
-                Some(nd) => v == nd || (nd.is_nan() && v.is_nan()),
-                None => false,
-            };
-            if is_nodata || !v.is_finite() {
-                f32::NAN
-            } else {
-                ((v * scale + offset) * unit_factor) as f32
-            }
-        })
-        .collect();
+    let (_, mut heights) = buffer.into_shape_and_vec();
+    let nodata_f32 = nodata.map(|nd| nd as f32);
+    let identity = scale == 1.0 && offset == 0.0 && unit_factor == 1.0;
+    for h in heights.iter_mut() {
+        let is_nodata = match nodata_f32 {
+            Some(nd) => *h == nd || (nd.is_nan() && h.is_nan()),
+            None => false,
+        };
+        if is_nodata || !h.is_finite() {
+            *h = f32::NAN;
+        } else if !identity {
+            *h = ((*h as f64 * scale + offset) * unit_factor) as f32;
+        }
+    }
     if heights.iter().all(|h| h.is_nan()) {
         return Err(DemError::AllNodata { path: p });
     }
