@@ -6,6 +6,7 @@
 //! - [`dem`]: the elevation grid, its GDAL reader and writer.
 //! - [`stations`]: the station file and coordinate transformation (PROJ).
 //! - [`engine`]: per-station integration, parallel over stations.
+//! - [`water`]: lakes and sea in the terrain correction.
 //! - [`output`]: the result table writers.
 //! - [`cli`] and [`app`]: the command line and what each command does.
 
@@ -20,4 +21,5 @@ pub mod reduce;
 pub mod stations;
 pub mod synthetic;
 pub mod units;
+pub mod water;
 pub mod zones;
