@@ -2,9 +2,10 @@
 //!
 //! Reads like a table of contents; the work is in the modules it calls.
 
+use crate::anomaly::ReductionSettings;
 use crate::cli::{
     Cli, Command, ConventionArg, CorrectArgs, DemoArgs, InnerModelArg, InputArgs, MethodArg,
-    PhysicsArgs, PlanArgs, RunArgs,
+    PhysicsArgs, PlanArgs, ReductionArgs, RunArgs,
 };
 use crate::dem::read::read_dem;
 use crate::dem::Dem;
@@ -281,12 +282,26 @@ pub const ZONE_COLUMNS: [&str; 4] = [
     "tc_far_mgal",
 ];
 
-/// The per-station table of `correct`.
+/// The per-station table of `correct` at the constant density of the settings, without water.
 pub fn correction_table(
     inputs: &Inputs,
     settings: &Settings,
     plan: &ZonePlan,
     results: &[StationResult],
+) -> anyhow::Result<Table> {
+    let densities = vec![settings.density_kg_m3; results.len()];
+    correction_table_with(inputs, plan, results, &densities, None)
+}
+
+/// The per-station table of `correct`: the TC of each station at its density
+/// (`densities`, kg/m3), plus the water's part (`water_mgal`, its own column
+/// `tc_water_mgal`, included in `tc_mgal`) when water is on.
+pub fn correction_table_with(
+    inputs: &Inputs,
+    plan: &ZonePlan,
+    results: &[StationResult],
+    densities: &[f64],
+    water_mgal: Option<&[f64]>,
 ) -> anyhow::Result<Table> {
     let transformed = inputs.stations.input_crs.is_some();
     let mut headers: Vec<String> = vec!["station".into(), "x".into(), "y".into()];
@@ -299,6 +314,9 @@ pub fn correction_table(
     {
         headers.push(h.to_string());
     }
+    if water_mgal.is_some() {
+        headers.push("tc_water_mgal".to_string());
+    }
     if plan.per_ring_columns {
         headers.extend(plan.rings.iter().map(|r| format!("tc_{}_mgal", r.name)));
     }
@@ -307,14 +325,16 @@ pub fn correction_table(
         headers,
         rows: Vec::new(),
     };
-    let scale = |k: f64| to_mgal(crate::units::G * settings.density_kg_m3 * k);
-    for (s, r) in inputs.stations.stations.iter().zip(results) {
+    for (i, (s, r)) in inputs.stations.stations.iter().zip(results).enumerate() {
+        let rho = densities[i];
+        let scale = |k: f64| to_mgal(crate::units::G * rho * k);
+        let water = water_mgal.map(|w| w[i]);
         let what = |col: &str| format!("{col} of station {}", s.id);
         let dem_elev = r
             .dem_elev_m
             .with_context(|| format!("station {} is on nodata of the DEM", s.id))?;
-        let tc = to_mgal(r.tc_m_s2(settings.density_kg_m3));
-        let groups: Vec<f64> = [
+        let tc = to_mgal(r.tc_m_s2(rho)) + water.unwrap_or(0.0);
+        let mut groups: Vec<f64> = [
             ZoneGroup::Inner,
             ZoneGroup::Near,
             ZoneGroup::Middle,
@@ -323,7 +343,9 @@ pub fn correction_table(
         .iter()
         .map(|&g| scale(r.group_m(plan, g)))
         .collect();
+        groups.extend(water);
         let (tc_rounded, groups) = parts_adding_up(tc, &groups, 4);
+        let water_rounded = if water.is_some() { groups[4] } else { 0.0 };
         let mut row = vec![
             s.id.clone(),
             format_coord(s.input_xy.0),
@@ -340,9 +362,12 @@ pub fn correction_table(
         for (name, v) in ZONE_COLUMNS.iter().zip(&groups) {
             row.push(fixed(*v, 4, &what(name))?);
         }
+        if water.is_some() {
+            row.push(fixed(water_rounded, 4, &what("tc_water_mgal"))?);
+        }
         if plan.per_ring_columns {
             let rings: Vec<f64> = r.rings_m.iter().map(|&k| scale(k)).collect();
-            let (_, rings) = parts_adding_up(tc_rounded - groups[0], &rings, 4);
+            let (_, rings) = parts_adding_up(tc_rounded - groups[0] - water_rounded, &rings, 4);
             for (ring, v) in plan.rings.iter().zip(rings) {
                 row.push(fixed(v, 4, &what(&format!("tc_{}_mgal", ring.name)))?);
             }
@@ -363,13 +388,18 @@ fn format_coord(v: f64) -> String {
 /// `ringsum correct`.
 fn correct(args: &CorrectArgs) -> anyhow::Result<()> {
     let settings = Settings::from_args(&args.physics)?;
+    let reduction = ReductionSettings::from_args(&args.reduction, settings.density_kg_m3)?;
     let target = check_target(&args.out)?;
     let inputs = load_inputs(&args.input)?;
     let plan = settings.plan(inputs.dem.dx.max(inputs.dem.dy))?;
     preflight(&inputs, &settings)?;
+    let chain = crate::anomaly::prepare(&inputs, &settings, &reduction)?;
     let started = Instant::now();
     let results = compute_stations(&inputs, &settings, &plan, &args.run)?;
-    let table = correction_table(&inputs, &settings, &plan, &results)?;
+    let water = chain.water_mgal(&inputs, &settings, &plan, &args.run)?;
+    let mut table =
+        correction_table_with(&inputs, &plan, &results, &chain.densities, water.as_deref())?;
+    chain.add_columns(&mut table, &inputs.stations)?;
     write_table(&target, &table)?;
     if !args.run.quiet {
         summarise(&table, started.elapsed().as_secs_f64(), &target);
@@ -461,6 +491,7 @@ fn demo(args: &DemoArgs) -> anyhow::Result<()> {
             convention: ConventionArg::Spherical,
             allow_gaps: false,
         },
+        reduction: ReductionArgs::default(),
         run: args.run.clone(),
         out: args.out.clone(),
     };

@@ -23,9 +23,10 @@ pub struct Cli {
 
 #[derive(Debug, Subcommand)]
 pub enum Command {
-    /// Per-station terrain correction from a DEM and a station file.
+    /// Per-station terrain correction from a DEM and a station file, and the Bouguer
+    /// anomalies when the file has observed gravity.
     #[command(after_help = AFTER_HELP)]
-    Correct(CorrectArgs),
+    Correct(Box<CorrectArgs>),
     /// Print the zone plan for a DEM and outer radius, with the measured cost per station.
     #[command(after_help = AFTER_HELP)]
     Plan(PlanArgs),
@@ -149,6 +150,82 @@ pub struct PhysicsArgs {
     pub allow_gaps: bool,
 }
 
+/// Reference ellipsoid of normal gravity.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq, ValueEnum)]
+pub enum EllipsoidArg {
+    #[default]
+    /// Geodetic Reference System 1980 (the standard of the North American gravity database).
+    Grs80,
+    /// World Geodetic System 1984 (about 0.14 mGal below GRS80).
+    Wgs84,
+}
+
+/// Free-air correction formula.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq, ValueEnum)]
+pub enum FreeAirArg {
+    #[default]
+    /// (0.3087691 - 0.0004398 sin^2 lat) h - 7.2125e-8 h^2 mGal (Hinze et al. 2005).
+    SecondOrder,
+    /// 0.3086 h mGal, latitude ignored (classical).
+    FirstOrder,
+}
+
+/// From observed gravity to the complete Bouguer anomaly, and water bodies.
+#[derive(Debug, Clone, Default, Args)]
+pub struct ReductionArgs {
+    /// Column of observed gravity: absolute, in mGal (about 980000). Default: found by
+    /// common names (gravity, g_obs, gobs, g, grav, observed_gravity, obs_gravity,
+    /// gravity_mgal, g_mgal). With it, the table gains the latitude, each reduction step and
+    /// the anomalies; stations with an empty field keep their TC and corrections and get
+    /// empty anomalies. Without such a column the table is the TC table alone.
+    #[arg(long, value_name = "NAME", help_heading = "Reduction")]
+    pub gravity_col: Option<String>,
+
+    /// Column of per-station density, kg/m3: each station's TC and Bouguer correction use
+    /// its own density (an empty field takes --density).
+    #[arg(long, value_name = "NAME", help_heading = "Reduction")]
+    pub density_col: Option<String>,
+
+    /// Column of the geoid undulation N, m. With it the station heights are orthometric
+    /// (on the DEM's datum, as the TC needs) and h = H + N is used for the free-air,
+    /// atmospheric and Bouguer corrections; without it the heights are used as given for
+    /// both (taken as ellipsoidal by the reduction).
+    #[arg(long, value_name = "NAME", help_heading = "Reduction")]
+    pub undulation_col: Option<String>,
+
+    /// Ellipsoid of normal gravity (Somigliana closed form).
+    #[arg(long, value_enum, default_value_t = EllipsoidArg::Grs80, help_heading = "Reduction")]
+    pub ellipsoid: EllipsoidArg,
+
+    /// Free-air correction.
+    #[arg(long, value_enum, default_value_t = FreeAirArg::SecondOrder, help_heading = "Reduction")]
+    pub free_air: FreeAirArg,
+
+    /// Turns water on: DEM cells below the water surface hold water of this density
+    /// (kg/m3; 1027 sea, 1000 fresh; 0 treats them as air) instead of air. The DEM is then
+    /// the bottom (with bathymetry); the water's effect is the column tc_water_mgal,
+    /// included in tc_mgal.
+    #[arg(
+        long,
+        value_name = "KG_M3",
+        allow_negative_numbers = true,
+        help_heading = "Reduction"
+    )]
+    pub water_density: Option<f64>,
+
+    /// Water surface: a constant level (m, on the DEM's datum; default 0, sea level) or a
+    /// raster of the lake or sea surface in the DEM's CRS (nodata: no water). Needs
+    /// --water-density.
+    #[arg(
+        long,
+        value_name = "LEVEL|RASTER",
+        allow_hyphen_values = true,
+        requires = "water_density",
+        help_heading = "Reduction"
+    )]
+    pub water_surface: Option<String>,
+}
+
 /// Parallelism and progress.
 #[derive(Debug, Clone, Args)]
 pub struct RunArgs {
@@ -167,6 +244,8 @@ pub struct CorrectArgs {
     pub input: InputArgs,
     #[command(flatten)]
     pub physics: PhysicsArgs,
+    #[command(flatten)]
+    pub reduction: ReductionArgs,
     #[command(flatten)]
     pub run: RunArgs,
 

@@ -6,9 +6,13 @@
 //! - [`dem`]: the elevation grid, its GDAL reader and writer.
 //! - [`stations`]: the station file and coordinate transformation (PROJ).
 //! - [`engine`]: per-station integration, parallel over stations.
+//! - [`reduce`]: the reduction chain's formulas (normal gravity, free-air, Bouguer).
+//! - [`anomaly`]: the reduction chain's columns in the `correct` table, densities.
+//! - [`water`]: lakes and sea in the terrain correction.
 //! - [`output`]: the result table writers.
 //! - [`cli`] and [`app`]: the command line and what each command does.
 
+pub mod anomaly;
 pub mod app;
 pub mod benchdata;
 pub mod cli;
@@ -21,4 +25,5 @@ pub mod reduce;
 pub mod stations;
 pub mod synthetic;
 pub mod units;
+pub mod water;
 pub mod zones;

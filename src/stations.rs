@@ -361,6 +361,75 @@ fn transform_stations(stations: &mut [Station], from: &str, to_wkt: &str) -> Res
     Ok(())
 }
 
+/// Why a geodetic position could not be derived.
+#[derive(Debug, Clone, PartialEq)]
+pub enum GeodeticError {
+    /// No transformation to EPSG:4326 exists for the CRS.
+    Crs(String),
+    /// Point `index` has no geodetic position.
+    Point { index: usize, detail: String },
+}
+
+/// Geodetic longitude and latitude (degrees, WGS 84, east and north positive) of points
+/// given in the CRS `from` (EPSG code, PROJ string or WKT), through PROJ.
+///
+/// The transformation goes to EPSG:4326 with PROJ's normalised axis order (longitude
+/// first). Latitudes on WGS 84 and on GRS80 differ by less than 1e-8 degrees, so they serve
+/// normal gravity on either ellipsoid.
+pub fn geodetic_lon_lat(
+    from: &str,
+    points: &[(f64, f64)],
+) -> Result<Vec<(f64, f64)>, GeodeticError> {
+    if from.trim().is_empty() {
+        return Err(GeodeticError::Crs("the CRS is unknown".into()));
+    }
+    let transform = proj::Proj::new_known_crs(from, "EPSG:4326", None).map_err(|e| {
+        GeodeticError::Crs(format!(
+            "PROJ cannot build a transformation from it to EPSG:4326 ({e})"
+        ))
+    })?;
+    points
+        .iter()
+        .enumerate()
+        .map(|(index, &(x, y))| {
+            let failed = |detail: String| GeodeticError::Point { index, detail };
+            let (lon, lat) = transform
+                .convert((x, y))
+                .map_err(|e| failed(format!("PROJ cannot convert it ({e})")))?;
+            if !lon.is_finite() || !lat.is_finite() || lat.abs() > 90.0 {
+                return Err(failed(format!("PROJ gives ({lon}, {lat})")));
+            }
+            Ok((lon, lat))
+        })
+        .collect()
+}
+
+/// Geodetic latitude of every station (degrees, WGS 84), from its position in the DEM's
+/// CRS (`dem_crs_wkt`) through PROJ.
+pub fn geodetic_latitudes(
+    table: &StationTable,
+    dem_crs_wkt: &str,
+) -> Result<Vec<f64>, StationError> {
+    let points: Vec<(f64, f64)> = table.stations.iter().map(|s| (s.x, s.y)).collect();
+    geodetic_lon_lat(dem_crs_wkt, &points)
+        .map(|lon_lat| lon_lat.into_iter().map(|(_, lat)| lat).collect())
+        .map_err(|e| StationError::Crs {
+            path: table.path.display().to_string(),
+            detail: match e {
+                GeodeticError::Crs(detail) => format!(
+                    "the stations' latitudes, which normal gravity needs, cannot be derived from the DEM's CRS: {detail}; give the DEM a CRS that PROJ knows"
+                ),
+                GeodeticError::Point { index, detail } => {
+                    let s = &table.stations[index];
+                    format!(
+                        "line {}: station {}: its position ({}, {}) in the DEM's CRS has no geodetic latitude ({detail}), which normal gravity needs; check the coordinates and the station CRS",
+                        s.line, s.id, s.x, s.y
+                    )
+                }
+            },
+        })
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -155,3 +155,16 @@ pub fn read_dem(path: &Path) -> Result<Dem, DemError> {
         crs_wkt,
     })
 }
+
+/// Whether two CRS definitions (WKT, EPSG code or PROJ string) describe the same CRS
+/// (GDAL's `OSRIsSame`); `false` when either cannot be parsed.
+pub fn same_crs(a: &str, b: &str) -> bool {
+    use gdal::spatial_ref::SpatialRef;
+    match (
+        SpatialRef::from_definition(a),
+        SpatialRef::from_definition(b),
+    ) {
+        (Ok(a), Ok(b)) => a == b,
+        _ => false,
+    }
+}
