@@ -9,14 +9,13 @@ use crate::cli::{
 };
 use crate::dem::read::read_dem;
 use crate::dem::Dem;
-use crate::engine::{
-    count_disc, Convention, Engine, EngineConfig, InnerModel, Method, Point, StationResult,
-};
+use crate::engine::{Convention, Engine, EngineConfig, InnerModel, Method, Point, StationResult};
 use crate::output::{check_target, fixed, write_table, Table, Target};
 use crate::stations::{read_stations, ColumnChoice, StationTable};
 use crate::units::{format_length, parse_length_m, to_mgal};
 use crate::zones::{AutoSettings, RingMethod, ZoneGroup, ZonePlan};
 use anyhow::{bail, Context};
+use rayon::prelude::*;
 use std::path::{Path, PathBuf};
 use std::time::Instant;
 
@@ -165,7 +164,7 @@ fn list_some(items: &[String]) -> String {
 
 /// Refuses stations off the DEM (or on its nodata), and stations whose disc reaches past
 /// the DEM or into nodata unless gaps are allowed.
-pub fn preflight(inputs: &Inputs, settings: &Settings) -> anyhow::Result<()> {
+pub fn preflight(inputs: &Inputs, settings: &Settings, engine: &Engine) -> anyhow::Result<()> {
     let dem = &inputs.dem;
     let table = &inputs.stations;
     let mut outside = Vec::new();
@@ -192,13 +191,24 @@ pub fn preflight(inputs: &Inputs, settings: &Settings) -> anyhow::Result<()> {
     }
     if !settings.allow_gaps {
         let radius = settings.engine.outer_radius_m;
-        let mut gaps = Vec::new();
-        for s in &table.stations {
-            let c = count_disc(dem, s.x, s.y, radius).coverage();
-            if c < 1.0 {
-                gaps.push(format!("{} coverage {:.4}", s.id, c));
-            }
-        }
+        let coverage: Vec<f64> = table
+            .stations
+            .par_iter()
+            .map(|s| {
+                engine.coverage(Point {
+                    x: s.x,
+                    y: s.y,
+                    elev: s.elev,
+                })
+            })
+            .collect();
+        let gaps: Vec<String> = table
+            .stations
+            .iter()
+            .zip(&coverage)
+            .filter(|(_, &c)| c < 1.0)
+            .map(|(s, c)| format!("{} coverage {:.4}", s.id, c))
+            .collect();
         if !gaps.is_empty() {
             bail!(
                 "{} station(s) have their {} outer radius reaching past {} or into nodata ({}); use a larger DEM, a smaller --outer-radius, or --allow-gaps to accept this and report the coverage",
@@ -233,8 +243,7 @@ pub fn with_threads<T: Send>(
 /// Computes every station of the inputs, with a progress bar.
 pub fn compute_stations(
     inputs: &Inputs,
-    settings: &Settings,
-    plan: &ZonePlan,
+    engine: &Engine,
     run: &RunArgs,
 ) -> anyhow::Result<Vec<StationResult>> {
     let points: Vec<Point> = inputs
@@ -247,7 +256,6 @@ pub fn compute_stations(
             elev: s.elev,
         })
         .collect();
-    let engine = Engine::new(&inputs.dem, settings.engine, plan.clone());
     let bar = crate::progress::station_bar(points.len() as u64, run.quiet, "stations");
     let results = with_threads(run.threads, || engine.compute_all(&points, &|| bar.inc(1)))?;
     bar.finish_and_clear();
@@ -392,10 +400,11 @@ fn correct(args: &CorrectArgs) -> anyhow::Result<()> {
     let target = check_target(&args.out)?;
     let inputs = load_inputs(&args.input)?;
     let plan = settings.plan(inputs.dem.dx.max(inputs.dem.dy))?;
-    preflight(&inputs, &settings)?;
+    let engine = Engine::new(&inputs.dem, settings.engine, plan.clone());
+    preflight(&inputs, &settings, &engine)?;
     let chain = crate::anomaly::prepare(&inputs, &settings, &reduction)?;
     let started = Instant::now();
-    let results = compute_stations(&inputs, &settings, &plan, &args.run)?;
+    let results = compute_stations(&inputs, &engine, &args.run)?;
     let water = chain.water_mgal(&inputs, &settings, &plan, &args.run)?;
     let mut table =
         correction_table_with(&inputs, &plan, &results, &chain.densities, water.as_deref())?;
@@ -590,13 +599,11 @@ fn plan(args: &PlanArgs) -> anyhow::Result<()> {
         points.len(),
         build_s
     );
-    if let Some(pyr) = &engine.pyramid {
-        println!(
-            "memory: DEM {:.1} MB, block pyramid {:.1} MB",
-            (dem.len() * 4) as f64 / 1e6,
-            pyr.bytes() as f64 / 1e6
-        );
-    }
+    println!(
+        "memory: DEM {:.1} MB, block pyramid {:.1} MB",
+        (dem.len() * 4) as f64 / 1e6,
+        engine.pyramid.bytes() as f64 / 1e6
+    );
     Ok(())
 }
 

@@ -19,7 +19,9 @@ pub const STATIONS_PER_SIDE: usize = 100;
 
 /// Folder of the benchmark data.
 pub fn folder() -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join("target").join("bench-data")
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("target")
+        .join("bench-data")
 }
 
 /// Path of the benchmark DEM.
@@ -52,7 +54,12 @@ pub fn stations(dem: &Dem) -> Vec<(String, f64, f64, f64)> {
             let x = -SURVEY_HALF_WIDTH_M + (i as f64 + 0.37) * 2.0 * SURVEY_HALF_WIDTH_M / n as f64;
             let y = -SURVEY_HALF_WIDTH_M + (j as f64 + 0.61) * 2.0 * SURVEY_HALF_WIDTH_M / n as f64;
             let elev = dem.bilinear(x, y).expect("the survey area is on the DEM");
-            out.push((format!("B{:05}", i * n + j), x + 500_000.0, y + 5_000_000.0, elev));
+            out.push((
+                format!("B{:05}", i * n + j),
+                x + 500_000.0,
+                y + 5_000_000.0,
+                elev,
+            ));
         }
     }
     out

@@ -357,17 +357,14 @@ pub struct Engine<'a> {
     pub dem: &'a Dem,
     pub config: EngineConfig,
     pub plan: ZonePlan,
-    /// Block statistics, built for the zoned method.
-    pub pyramid: Option<Pyramid>,
+    /// Block statistics (the zoned method's blocks and sectors; every method's coverage).
+    pub pyramid: Pyramid,
 }
 
 impl<'a> Engine<'a> {
     /// Prepares an engine; builds the block pyramid when the method needs it.
     pub fn new(dem: &'a Dem, config: EngineConfig, plan: ZonePlan) -> Engine<'a> {
-        let pyramid = match config.method {
-            Method::Zoned => Some(Pyramid::build(dem)),
-            Method::Exact => None,
-        };
+        let pyramid = Pyramid::build(dem);
         Engine {
             dem,
             config,
@@ -376,13 +373,21 @@ impl<'a> Engine<'a> {
         }
     }
 
+    /// Fraction of the disc of the outer radius around `p` with DEM data, 0..1.
+    pub fn coverage(&self, p: Point) -> f64 {
+        coverage_with_pyramid(
+            self.dem,
+            &self.pyramid,
+            p.x,
+            p.y,
+            self.config.outer_radius_m,
+        )
+    }
+
     /// Computes the correction at one point.
     pub fn compute(&self, p: Point) -> StationResult {
         let radius = self.config.outer_radius_m;
-        let coverage = match &self.pyramid {
-            Some(pyramid) => coverage_with_pyramid(self.dem, pyramid, p.x, p.y, radius),
-            None => count_disc(self.dem, p.x, p.y, radius).coverage(),
-        };
+        let coverage = coverage_with_pyramid(self.dem, &self.pyramid, p.x, p.y, radius);
         let mut parts = Parts::new(self.plan.rings.len());
         match self.config.method {
             Method::Exact => exact::exact_parts(self, p, &mut parts),
@@ -400,10 +405,7 @@ impl<'a> Engine<'a> {
     }
 
     fn zoned_parts(&self, p: Point, parts: &mut Parts) {
-        let pyramid = self
-            .pyramid
-            .as_ref()
-            .expect("the zoned method builds a pyramid");
+        let pyramid = &self.pyramid;
         let curvature = self.config.convention.curvature();
         let inner_box = match self.plan.inner {
             InnerZone::Cells { half_width } => {
