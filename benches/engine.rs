@@ -16,7 +16,12 @@ use ringsum::zones::{AutoSettings, ZonePlan};
 use std::time::Instant;
 
 fn config(radius: f64, method: Method) -> EngineConfig {
-    EngineConfig { outer_radius_m: radius, convention: Convention::Spherical, method, inner_model: InnerModel::Surface }
+    EngineConfig {
+        outer_radius_m: radius,
+        convention: Convention::Spherical,
+        method,
+        inner_model: InnerModel::Surface,
+    }
 }
 
 fn engine(c: &mut Criterion) {
@@ -43,20 +48,32 @@ fn engine(c: &mut Criterion) {
         .skip(1)
         .map(|l| {
             let f: Vec<f64> = l.split(',').skip(1).map(|v| v.parse().unwrap()).collect();
-            Point { x: f[0], y: f[1], elev: f[2] }
+            Point {
+                x: f[0],
+                y: f[1],
+                elev: f[2],
+            }
         })
         .collect();
     let mut g = c.benchmark_group("station");
     for radius_km in [2.0, 5.0, 10.0, 20.0, 50.0, 100.0, 166.735] {
         let radius = radius_km * 1000.0;
-        let e = Engine::new(&dem, config(radius, Method::Zoned), ZonePlan::auto(dem.dx, radius, &AutoSettings::default()));
+        let e = Engine::new(
+            &dem,
+            config(radius, Method::Zoned),
+            ZonePlan::auto(dem.dx, radius, &AutoSettings::default()),
+        );
         let mut k = 0;
-        g.bench_with_input(BenchmarkId::new("zoned, outer radius km", radius_km), &radius, |b, _| {
-            b.iter(|| {
-                k = (k + 37) % stations.len();
-                e.compute(stations[k])
-            })
-        });
+        g.bench_with_input(
+            BenchmarkId::new("zoned, outer radius km", radius_km),
+            &radius,
+            |b, _| {
+                b.iter(|| {
+                    k = (k + 37) % stations.len();
+                    e.compute(stations[k])
+                })
+            },
+        );
     }
     g.finish();
 
