@@ -8,6 +8,7 @@
 //! - [`engine`]: per-station integration, parallel over stations.
 //! - [`output`]: the result table writers.
 //! - [`cli`] and [`app`]: the command line and what each command does.
+//! - [`plot`]: plots (PNG, SVG) and the colour scale.
 
 pub mod app;
 pub mod cli;
@@ -15,6 +16,7 @@ pub mod dem;
 pub mod engine;
 pub mod kernels;
 pub mod output;
+pub mod plot;
 pub mod progress;
 pub mod reduce;
 pub mod stations;
