@@ -25,6 +25,7 @@ pub fn run(cli: Cli) -> anyhow::Result<()> {
         Command::Correct(args) => correct(&args),
         Command::Plan(args) => plan(&args),
         Command::Demo(args) => demo(&args),
+        Command::Sweep(args) => crate::sweep::sweep(&args),
     }
 }
 

@@ -32,6 +32,9 @@ pub enum Command {
     /// Run the bundled invented scenario in demo-dem/ end to end and write its table.
     #[command(after_help = AFTER_HELP)]
     Demo(DemoArgs),
+    /// TC against outer radius, density and DEM: a table per station and radius, and plots.
+    #[command(after_help = crate::sens_cli::SWEEP_AFTER_HELP)]
+    Sweep(crate::sens_cli::SweepArgs),
 }
 
 /// How the Earth's shape enters (see the README, "Conventions").

@@ -8,7 +8,8 @@
 //! - [`engine`]: per-station integration, parallel over stations.
 //! - [`output`]: the result table writers.
 //! - [`cli`] and [`app`]: the command line and what each command does.
-//! - [`plot`]: plots (PNG, SVG) and the colour scale.
+//! - [`sweep`] (options in [`sens_cli`]) and [`plot`]: sensitivity to radius, density
+//!   and DEM, plots.
 
 pub mod app;
 pub mod cli;
@@ -19,7 +20,9 @@ pub mod output;
 pub mod plot;
 pub mod progress;
 pub mod reduce;
+pub mod sens_cli;
 pub mod stations;
+pub mod sweep;
 pub mod synthetic;
 pub mod units;
 pub mod zones;
