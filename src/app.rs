@@ -26,6 +26,7 @@ pub fn run(cli: Cli) -> anyhow::Result<()> {
         Command::Plan(args) => plan(&args),
         Command::Demo(args) => demo(&args),
         Command::Sweep(args) => crate::sweep::sweep(&args),
+        Command::Audit(args) => crate::audit::audit(&args),
     }
 }
 

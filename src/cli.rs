@@ -35,6 +35,9 @@ pub enum Command {
     /// TC against outer radius, density and DEM: a table per station and radius, and plots.
     #[command(after_help = crate::sens_cli::SWEEP_AFTER_HELP)]
     Sweep(crate::sens_cli::SweepArgs),
+    /// Check the inputs before a long run and compare with a legacy TC: report and plots.
+    #[command(after_help = crate::sens_cli::AUDIT_AFTER_HELP)]
+    Audit(crate::sens_cli::AuditArgs),
 }
 
 /// How the Earth's shape enters (see the README, "Conventions").

@@ -8,10 +8,11 @@
 //! - [`engine`]: per-station integration, parallel over stations.
 //! - [`output`]: the result table writers.
 //! - [`cli`] and [`app`]: the command line and what each command does.
-//! - [`sweep`] (options in [`sens_cli`]) and [`plot`]: sensitivity to radius, density
-//!   and DEM, plots.
+//! - [`sweep`], [`audit`] (options in [`sens_cli`]) and [`plot`]: sensitivity to
+//!   radius, density and DEM, input checks and legacy comparison, plots.
 
 pub mod app;
+pub mod audit;
 pub mod cli;
 pub mod dem;
 pub mod engine;

@@ -3,7 +3,7 @@
 //! and live in their own file only so that work on the other commands merges cleanly.
 
 use crate::cli::{InputArgs, PhysicsArgs, RunArgs};
-use clap::Args;
+use clap::{Args, ValueEnum};
 use std::path::PathBuf;
 
 /// Help text after `ringsum sweep --help`.
@@ -27,6 +27,28 @@ files) move to the ring's nearest edge, since a compartment is integrated whole.
 
 Exit status: 0 success; 1 the input or a result was refused (one sentence on stderr says why,
 and no output file is left behind); 2 the command line itself is wrong.";
+
+/// Help text after `ringsum audit --help`.
+pub const AUDIT_AFTER_HELP: &str = "\
+Report (--out), one row per station: station, x, y, elev_m, dem_elev_m, elev_minus_dem_m,
+dem_slope_deg, shift_for_mismatch_m (how far the station would have to move on that slope to
+explain the height difference), distance_to_dem_edge_m (negative outside), coverage (of the
+outer-radius disc), near_stations (other stations within --duplicate-distance),
+near_distance_m, problems (codes separated by ';': outside_dem, on_nodata, partial_coverage,
+height_mismatch, near_duplicate, bad_legacy). With a legacy column: legacy_tc_mgal, tc_mgal,
+new_minus_legacy_mgal. With --zones hammer and per-zone legacy columns legacy_tc_A (the
+station zone, 0-2 m) and legacy_tc_B ... legacy_tc_M (Hammer's zones; names case-insensitive):
+tc_<Z>_mgal, legacy_tc_<Z>_mgal and diff_<Z>_mgal per zone found.
+
+Legacy column: --legacy-col, else the first of legacy_tc, legacy_tc_mgal, old_tc, old_tc_mgal,
+tc_old, tc_old_mgal, tc_legacy, tc_legacy_mgal. Compare like with like: give the legacy
+survey's density, outer radius and --convention planar for a classical survey.
+
+Plots (--plots DIR): legacy_scatter (new against legacy TC), legacy_histogram (new minus
+legacy), legacy_zones (per-zone differences, hammer preset), as .png or .svg.
+
+Exit status: 0 the report was written (whatever it found); 1 the input was refused (one
+sentence on stderr says why, and nothing is written); 2 the command line itself is wrong.";
 
 #[derive(Debug, Clone, Args)]
 pub struct SweepArgs {
@@ -89,4 +111,78 @@ pub struct SweepArgs {
     /// median and spread.
     #[arg(long, value_name = "N", default_value_t = 12, help_heading = "Output")]
     pub max_lines: usize,
+}
+
+/// Picture format of the audit's plots.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum PlotFormatArg {
+    Png,
+    Svg,
+}
+
+#[derive(Debug, Clone, Args)]
+pub struct AuditArgs {
+    #[command(flatten)]
+    pub input: InputArgs,
+    #[command(flatten)]
+    pub physics: PhysicsArgs,
+    #[command(flatten)]
+    pub run: RunArgs,
+
+    /// Per-station report: a .csv path, or - for standard output (the summary then goes
+    /// to standard error).
+    #[arg(long, value_name = "PATH", help_heading = "Output")]
+    pub out: PathBuf,
+
+    /// Column of the station file holding an earlier (legacy) TC in mGal; default: the
+    /// first common name found (see below). The new TC is then computed and compared.
+    #[arg(long, value_name = "NAME", help_heading = "Legacy")]
+    pub legacy_col: Option<String>,
+
+    /// Leave stations whose legacy value is empty or not a number out of the comparison
+    /// (they are listed, and flagged bad_legacy); without it such lines stop the audit.
+    #[arg(long, help_heading = "Legacy")]
+    pub skip_bad_legacy: bool,
+
+    /// Flag stations whose height differs from the DEM's by more than this (m or km).
+    #[arg(
+        long,
+        value_name = "LENGTH",
+        default_value = "5m",
+        allow_hyphen_values = true,
+        help_heading = "Checks"
+    )]
+    pub mismatch_threshold: String,
+
+    /// Flag pairs of stations closer than this horizontally (m or km; 0 flags only
+    /// stations at the same position) as near-duplicates.
+    #[arg(
+        long,
+        value_name = "LENGTH",
+        default_value = "1m",
+        allow_hyphen_values = true,
+        help_heading = "Checks"
+    )]
+    pub duplicate_distance: String,
+
+    /// Folder for the legacy comparison plots (created if missing).
+    #[arg(long, value_name = "DIR", help_heading = "Output")]
+    pub plots: Option<PathBuf>,
+
+    /// Picture format of the plots.
+    #[arg(long, value_enum, default_value_t = PlotFormatArg::Png, help_heading = "Output")]
+    pub plot_format: PlotFormatArg,
+
+    /// Size of the plots in pixels.
+    #[arg(
+        long,
+        value_name = "WIDTHxHEIGHT",
+        default_value = "900x700",
+        help_heading = "Output"
+    )]
+    pub plot_size: String,
+
+    /// How many of the largest new-minus-legacy differences the summary lists.
+    #[arg(long, value_name = "N", default_value_t = 10, help_heading = "Output")]
+    pub worst: usize,
 }
