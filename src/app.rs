@@ -27,6 +27,7 @@ pub fn run(cli: Cli) -> anyhow::Result<()> {
         Command::Demo(args) => demo(&args),
         Command::Sweep(args) => crate::sweep::sweep(&args),
         Command::Audit(args) => crate::audit::audit(&args),
+        Command::Map(args) => crate::map::map(&args),
     }
 }
 

@@ -38,6 +38,9 @@ pub enum Command {
     /// Check the inputs before a long run and compare with a legacy TC: report and plots.
     #[command(after_help = crate::sens_cli::AUDIT_AFTER_HELP)]
     Audit(crate::sens_cli::AuditArgs),
+    /// TC on a regular grid at terrain height: a GeoTIFF and a PNG preview.
+    #[command(after_help = crate::sens_cli::MAP_AFTER_HELP)]
+    Map(crate::sens_cli::MapArgs),
 }
 
 /// How the Earth's shape enters (see the README, "Conventions").

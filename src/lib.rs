@@ -8,8 +8,8 @@
 //! - [`engine`]: per-station integration, parallel over stations.
 //! - [`output`]: the result table writers.
 //! - [`cli`] and [`app`]: the command line and what each command does.
-//! - [`sweep`], [`audit`] (options in [`sens_cli`]) and [`plot`]: sensitivity to
-//!   radius, density and DEM, input checks and legacy comparison, plots.
+//! - [`sweep`], [`audit`], [`map`] (options in [`sens_cli`]) and [`plot`]: sensitivity
+//!   to radius, density and DEM, input checks and legacy comparison, TC grids, plots.
 
 pub mod app;
 pub mod audit;
@@ -17,6 +17,7 @@ pub mod cli;
 pub mod dem;
 pub mod engine;
 pub mod kernels;
+pub mod map;
 pub mod output;
 pub mod plot;
 pub mod progress;

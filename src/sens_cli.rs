@@ -50,6 +50,21 @@ legacy), legacy_zones (per-zone differences, hammer preset), as .png or .svg.
 Exit status: 0 the report was written (whatever it found); 1 the input was refused (one
 sentence on stderr says why, and nothing is written); 2 the command line itself is wrong.";
 
+/// Help text after `ringsum map --help`.
+pub const MAP_AFTER_HELP: &str = "\
+Grid: nodes at whole multiples of --spacing inside the extent, each node the centre of its
+GeoTIFF cell (so maps of one spacing line up); every node is computed at the DEM's height
+there, as a station standing on the terrain. Nodes on nodata, and nodes whose disc lacks
+DEM data unless --allow-gaps, are written as nodata (-9999). The GeoTIFF (float32, mGal)
+has the DEM's CRS. Grids of more than 200 million nodes are refused with a spacing that fits.
+
+Preview (--preview): the TC in the colour scale of the README over a hillshade of the DEM
+(colour times 0.6 + 0.4 x hillshade, sun from the north-west), the DEM around the grid in
+grey, stations as circles, and a colour bar; the picture is --plot-size pixels.
+
+Exit status: 0 success; 1 the input or a result was refused (one sentence on stderr says why,
+and no output file is left behind); 2 the command line itself is wrong.";
+
 #[derive(Debug, Clone, Args)]
 pub struct SweepArgs {
     #[command(flatten)]
@@ -185,4 +200,74 @@ pub struct AuditArgs {
     /// How many of the largest new-minus-legacy differences the summary lists.
     #[arg(long, value_name = "N", default_value_t = 10, help_heading = "Output")]
     pub worst: usize,
+}
+
+#[derive(Debug, Clone, Args)]
+pub struct MapArgs {
+    /// DEM raster (as for `correct`).
+    #[arg(long, value_name = "PATH", required = true, help_heading = "Input")]
+    pub dem: Vec<PathBuf>,
+
+    /// Station file, for --extent stations and to mark the stations on the preview.
+    #[arg(long, value_name = "PATH", help_heading = "Input")]
+    pub stations: Option<PathBuf>,
+
+    /// CRS of the station coordinates (as for `correct`).
+    #[arg(long, value_name = "CRS", help_heading = "Input")]
+    pub stations_crs: Option<String>,
+    /// Name of the station-id column.
+    #[arg(long, value_name = "NAME", help_heading = "Input")]
+    pub station_col: Option<String>,
+    /// Name of the easting (or longitude) column.
+    #[arg(long, value_name = "NAME", help_heading = "Input")]
+    pub x_col: Option<String>,
+    /// Name of the northing (or latitude) column.
+    #[arg(long, value_name = "NAME", help_heading = "Input")]
+    pub y_col: Option<String>,
+    /// Name of the station-height column.
+    #[arg(long, value_name = "NAME", help_heading = "Input")]
+    pub elev_col: Option<String>,
+
+    #[command(flatten)]
+    pub physics: PhysicsArgs,
+    #[command(flatten)]
+    pub run: RunArgs,
+
+    /// Distance between grid nodes (m or km).
+    #[arg(
+        long,
+        value_name = "LENGTH",
+        allow_hyphen_values = true,
+        help_heading = "Grid"
+    )]
+    pub spacing: String,
+
+    /// Area of the grid: dem (the DEM inset by the outer radius, so that every node has
+    /// the whole disc; the whole DEM with --allow-gaps), stations (the stations' bounding
+    /// box widened by one spacing), or XMIN,YMIN,XMAX,YMAX in the DEM's CRS (m).
+    #[arg(
+        long,
+        value_name = "AREA",
+        default_value = "dem",
+        allow_hyphen_values = true,
+        help_heading = "Grid"
+    )]
+    pub extent: String,
+
+    /// Output grid: a .tif path (GeoTIFF, float32 mGal, the DEM's CRS).
+    #[arg(long, value_name = "PATH", help_heading = "Output")]
+    pub out: PathBuf,
+
+    /// Preview picture of the grid over a hillshade, with a colour bar (.png).
+    #[arg(long, value_name = "PATH", help_heading = "Output")]
+    pub preview: Option<PathBuf>,
+
+    /// Size of the preview in pixels.
+    #[arg(
+        long,
+        value_name = "WIDTHxHEIGHT",
+        default_value = "1000x800",
+        help_heading = "Output"
+    )]
+    pub plot_size: String,
 }
