@@ -26,7 +26,10 @@ files) move to the ring's nearest edge, since a compartment is integrated whole.
 95% and 99%: the first radius from which on the TC stays within 5% (1%) of its final value.
 
 Exit status: 0 success; 1 the input or a result was refused (one sentence on stderr says why,
-and no output file is left behind); 2 the command line itself is wrong.";
+and no output file is left behind); 2 the command line itself is wrong.
+
+Units: lengths take m or km (166.7km, 500m; a bare number is metres); density in kg/m3;
+corrections in mGal, positive where the terrain correction adds to gravity.";
 
 /// Help text after `ringsum audit --help`.
 pub const AUDIT_AFTER_HELP: &str = "\
@@ -48,7 +51,10 @@ Plots (--plots DIR): legacy_scatter (new against legacy TC), legacy_histogram (n
 legacy), legacy_zones (per-zone differences, hammer preset), as .png or .svg.
 
 Exit status: 0 the report was written (whatever it found); 1 the input was refused (one
-sentence on stderr says why, and nothing is written); 2 the command line itself is wrong.";
+sentence on stderr says why, and nothing is written); 2 the command line itself is wrong.
+
+Units: lengths take m or km (166.7km, 500m; a bare number is metres); density in kg/m3;
+corrections in mGal, positive where the terrain correction adds to gravity.";
 
 /// Help text after `ringsum map --help`.
 pub const MAP_AFTER_HELP: &str = "\
@@ -58,12 +64,16 @@ there, as a station standing on the terrain. Nodes on nodata, and nodes whose di
 DEM data unless --allow-gaps, are written as nodata (-9999). The GeoTIFF (float32, mGal)
 has the DEM's CRS. Grids of more than 200 million nodes are refused with a spacing that fits.
 
-Preview (--preview): the TC in the colour scale of the README over a hillshade of the DEM
-(colour times 0.6 + 0.4 x hillshade, sun from the north-west), the DEM around the grid in
-grey, stations as circles, and a colour bar; the picture is --plot-size pixels.
+Preview (--preview): the TC in ringsum's colour scale (dark blue to light yellow, lightness
+rising with the value) over a hillshade of the DEM (colour times 0.6 + 0.4 x hillshade, sun
+from the north-west), the DEM around the grid in grey, stations as circles, and a colour
+bar; the picture is --plot-size pixels.
 
 Exit status: 0 success; 1 the input or a result was refused (one sentence on stderr says why,
-and no output file is left behind); 2 the command line itself is wrong.";
+and no output file is left behind); 2 the command line itself is wrong.
+
+Units: lengths take m or km (166.7km, 500m; a bare number is metres); density in kg/m3;
+corrections in mGal, positive where the terrain correction adds to gravity.";
 
 #[derive(Debug, Clone, Args)]
 pub struct SweepArgs {
