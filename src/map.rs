@@ -317,14 +317,14 @@ pub struct NodeCounts {
     pub without_whole_disc: usize,
 }
 
-/// Computes the TC (mGal) at every node, a block of rows at a time; nodes on nodata, and
-/// nodes whose disc is not wholly on data unless `allow_gaps`, are NaN.
+/// Computes the TC (mGal) at every node, a block of rows at a time (in parallel within a
+/// block, on the current rayon pool); nodes on nodata, and nodes whose disc is not wholly
+/// on data unless `allow_gaps`, are NaN.
 pub fn compute_grid(
     engine: &Engine,
     grid: &NodeGrid,
     density: f64,
     allow_gaps: bool,
-    threads: Option<usize>,
     tick: &(dyn Fn(u64) + Sync),
 ) -> anyhow::Result<(Vec<f32>, NodeCounts)> {
     let dem = engine.dem;
@@ -348,7 +348,7 @@ pub fn compute_grid(
             }
         }
         tick(((row1 - row0) * grid.cols - points.len()) as u64);
-        let results = with_threads(threads, || engine.compute_all(&points, &|| tick(1)))?;
+        let results = engine.compute_all(&points, &|| tick(1));
         for (k, r) in index.into_iter().zip(results) {
             if r.coverage < 1.0 && !allow_gaps {
                 counts.without_whole_disc += 1;
@@ -452,14 +452,15 @@ pub fn map(args: &MapArgs) -> anyhow::Result<()> {
 
     let bar = crate::progress::station_bar(grid.len() as u64, args.run.quiet, "nodes");
     let started = Instant::now();
-    let (values, counts) = compute_grid(
-        &engine,
-        &grid,
-        settings.density_kg_m3,
-        settings.allow_gaps,
-        args.run.threads,
-        &|n| bar.inc(n),
-    )?;
+    let (values, counts) = with_threads(args.run.threads, || {
+        compute_grid(
+            &engine,
+            &grid,
+            settings.density_kg_m3,
+            settings.allow_gaps,
+            &|n| bar.inc(n),
+        )
+    })??;
     bar.finish_and_clear();
     if counts.computed == 0 {
         bail!(

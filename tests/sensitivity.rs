@@ -1267,3 +1267,23 @@ fn map_extent_from_the_stations() {
     assert_eq!(gt[0], X0 + 500.0);
     assert_eq!(gt[3], Y0 - 500.0);
 }
+
+#[test]
+fn map_values_do_not_depend_on_the_thread_count() {
+    let h = hill();
+    let run = |threads: &str, out: &str| {
+        ringsum(&h.dir)
+            .arg("map")
+            .arg("--dem")
+            .arg(&h.dem)
+            .args(["--outer-radius", "300m", "--spacing", "100m", "--quiet"])
+            .args(["--threads", threads, "--out", out])
+            .assert()
+            .success();
+        read_tif(&h.dir.join(out)).values
+    };
+    let one = run("1", "one.tif");
+    let two = run("2", "two.tif");
+    assert_eq!(one.len(), 15 * 15);
+    assert!(one == two);
+}
