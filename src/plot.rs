@@ -909,7 +909,9 @@ pub struct MapFigure<'a> {
 }
 
 /// Hillshade of the DEM at `(x, y)` from central differences over `step` (m): 0 (in
-/// shadow) to 1, sun from the north-west (azimuth 315 degrees) at 45 degrees.
+/// shadow) to 1, the cosine of the angle between the ground's normal and the sun, with
+/// the sun from the north-west (azimuth 315 degrees) at 45 degrees (common practice for
+/// shaded relief, so that hills look raised rather than sunken).
 pub fn hillshade(dem: &crate::dem::Dem, x: f64, y: f64, step: f64) -> Option<f64> {
     let e = dem.bilinear(x + step, y)?;
     let w = dem.bilinear(x - step, y)?;
