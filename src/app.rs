@@ -25,6 +25,9 @@ pub fn run(cli: Cli) -> anyhow::Result<()> {
         Command::Correct(args) => correct(&args),
         Command::Plan(args) => plan(&args),
         Command::Demo(args) => demo(&args),
+        Command::Sweep(args) => crate::sweep::sweep(&args),
+        Command::Audit(args) => crate::audit::audit(&args),
+        Command::Map(args) => crate::map::map(&args),
     }
 }
 
@@ -165,6 +168,12 @@ fn list_some(items: &[String]) -> String {
 /// Refuses stations off the DEM (or on its nodata), and stations whose disc reaches past
 /// the DEM or into nodata unless gaps are allowed.
 pub fn preflight(inputs: &Inputs, settings: &Settings, engine: &Engine) -> anyhow::Result<()> {
+    preflight_positions(inputs)?;
+    check_coverage(inputs, settings, engine)
+}
+
+/// Refuses stations off the DEM or on its nodata.
+pub fn preflight_positions(inputs: &Inputs) -> anyhow::Result<()> {
     let dem = &inputs.dem;
     let table = &inputs.stations;
     let mut outside = Vec::new();
@@ -189,6 +198,13 @@ pub fn preflight(inputs: &Inputs, settings: &Settings, engine: &Engine) -> anyho
             list_some(&outside)
         );
     }
+    Ok(())
+}
+
+/// Refuses stations whose disc reaches past the DEM or into nodata, unless gaps are allowed.
+pub fn check_coverage(inputs: &Inputs, settings: &Settings, engine: &Engine) -> anyhow::Result<()> {
+    let dem = &inputs.dem;
+    let table = &inputs.stations;
     if !settings.allow_gaps {
         let radius = settings.engine.outer_radius_m;
         let coverage: Vec<f64> = table

@@ -33,6 +33,15 @@ pub enum Command {
     /// Run the bundled invented scenario in demo-dem/ end to end and write its table.
     #[command(after_help = AFTER_HELP)]
     Demo(DemoArgs),
+    /// TC against outer radius, density and DEM: a table per station and radius, and plots.
+    #[command(after_help = crate::sens_cli::SWEEP_AFTER_HELP)]
+    Sweep(crate::sens_cli::SweepArgs),
+    /// Check the inputs before a long run and compare with a legacy TC: report and plots.
+    #[command(after_help = crate::sens_cli::AUDIT_AFTER_HELP)]
+    Audit(crate::sens_cli::AuditArgs),
+    /// TC on a regular grid at terrain height: a GeoTIFF and a PNG preview.
+    #[command(after_help = crate::sens_cli::MAP_AFTER_HELP)]
+    Map(crate::sens_cli::MapArgs),
 }
 
 /// How the Earth's shape enters (see the README, "Conventions").

@@ -11,18 +11,25 @@
 //! - [`water`]: lakes and sea in the terrain correction.
 //! - [`output`]: the result table writers.
 //! - [`cli`] and [`app`]: the command line and what each command does.
+//! - [`sweep`], [`audit`], [`map`] (options in [`sens_cli`]) and [`plot`]: sensitivity
+//!   to radius, density and DEM, input checks and legacy comparison, TC grids, plots.
 
 pub mod anomaly;
 pub mod app;
+pub mod audit;
 pub mod benchdata;
 pub mod cli;
 pub mod dem;
 pub mod engine;
 pub mod kernels;
+pub mod map;
 pub mod output;
+pub mod plot;
 pub mod progress;
 pub mod reduce;
+pub mod sens_cli;
 pub mod stations;
+pub mod sweep;
 pub mod synthetic;
 pub mod units;
 pub mod water;

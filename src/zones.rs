@@ -549,6 +549,44 @@ impl ZonePlan {
         Ok(self)
     }
 
+    /// The plan with its prism and block rings cut at `radii_m` (m), for sweeps over the
+    /// outer radius. Each piece keeps its ring's method and summary group and is named
+    /// `<ring>_<k>`; sector rings are kept whole (a compartment is integrated as one
+    /// piece, so cutting one would change the result). The engine walks the same
+    /// elements with either plan: only the attribution of an element to a ring (by its
+    /// centroid) becomes finer, so the pieces add up to the rings they came from.
+    pub fn split_at(&self, radii_m: &[f64]) -> ZonePlan {
+        let mut rings = Vec::new();
+        for ring in &self.rings {
+            let cuts: Vec<f64> = match ring.method {
+                RingMethod::Sectors { .. } => Vec::new(),
+                _ => radii_m
+                    .iter()
+                    .copied()
+                    .filter(|&r| r > ring.inner_m && r < ring.outer_m)
+                    .collect(),
+            };
+            if cuts.is_empty() {
+                rings.push(ring.clone());
+                continue;
+            }
+            let mut edges = vec![ring.inner_m];
+            edges.extend(cuts);
+            edges.push(ring.outer_m);
+            for (k, w) in edges.windows(2).enumerate() {
+                let mut piece = ring.clone();
+                piece.name = format!("{}_{}", ring.name, k + 1);
+                piece.inner_m = w[0];
+                piece.outer_m = w[1];
+                rings.push(piece);
+            }
+        }
+        ZonePlan {
+            rings,
+            ..self.clone()
+        }
+    }
+
     /// Outer radius of the prism and block rings (where sectors begin), m.
     pub fn quadtree_outer_m(&self) -> f64 {
         self.rings
@@ -664,6 +702,44 @@ mod tests {
             err("[[ring]]\nouter = \"1km\"\nmethod = \"prisms\"\nratio = 3\n")
                 .contains("unknown key 'ratio'")
         );
+    }
+
+    #[test]
+    fn split_keeps_methods_groups_and_sector_rings() {
+        let s = AutoSettings {
+            far_start_m: 30_000.0,
+            far_method: FarMethod::Sectors,
+            ..AutoSettings::default()
+        };
+        let plan = ZonePlan::auto(30.0, 50_000.0, &s);
+        let split = plan.split_at(&[100.0, 210.0, 1000.0, 5000.0, 31_000.0, 50_000.0]);
+        // Contiguous from 0 to the outer radius, cut at every radius inside a prism or
+        // block ring, and nowhere inside a sector ring.
+        assert_eq!(split.rings[0].inner_m, 0.0);
+        for w in split.rings.windows(2) {
+            assert_eq!(w[0].outer_m, w[1].inner_m);
+        }
+        assert_eq!(split.rings.last().unwrap().outer_m, 50_000.0);
+        let edges: Vec<f64> = split.rings.iter().map(|r| r.outer_m).collect();
+        for r in [100.0, 1000.0, 5000.0] {
+            assert!(edges.contains(&r), "{r} not an edge of {edges:?}");
+        }
+        assert!(!edges.contains(&31_000.0));
+        let names: Vec<&str> = split.rings.iter().map(|r| r.name.as_str()).collect();
+        assert_eq!(&names[..5], ["near_1", "near_2", "mid_1", "mid_2", "mid_3"]);
+        for piece in &split.rings {
+            let parent = &plan.rings[plan.ring_at(0.5 * (piece.inner_m + piece.outer_m))];
+            assert_eq!(piece.method, parent.method);
+            assert_eq!(piece.group, parent.group);
+        }
+        let sectors = |p: &ZonePlan| {
+            p.rings
+                .iter()
+                .filter(|r| matches!(r.method, RingMethod::Sectors { .. }))
+                .count()
+        };
+        assert_eq!(sectors(&split), sectors(&plan));
+        assert!(split.check_order().is_ok());
     }
 
     #[test]
