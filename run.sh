@@ -36,6 +36,7 @@ case "${1:-}" in
     ensure_packages
     cargo fmt --all -- --check
     cargo clippy --locked --all-targets -- -D warnings
+    RUSTDOCFLAGS="-D warnings" cargo doc --locked --no-deps
     cargo test --locked
     ;;
   *)

@@ -80,6 +80,12 @@ pub fn write_atomically(path: &Path, bytes: &[u8]) -> anyhow::Result<()> {
     })?;
     tmp.write_all(bytes)
         .with_context(|| format!("{}: writing failed", path.display()))?;
+    // Temporary files are private; a finished table is an ordinary file.
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::PermissionsExt;
+        let _ = tmp.as_file().set_permissions(std::fs::Permissions::from_mode(0o644));
+    }
     tmp.persist(path).map_err(|e| {
         anyhow::anyhow!(
             "{}: cannot move the finished file into place ({})",

@@ -20,11 +20,11 @@
 //! distance squared) and 1/m for the column kernel per unit area.
 //!
 //! # Kernels
-//! - [`prism`]: right rectangular prism, Nagy et al. (2000) closed form, with a quadrature
+//! - [`prism`](mod@prism): right rectangular prism, Nagy et al. (2000) closed form, with a quadrature
 //!   form far from the prism where the closed form loses digits.
-//! - [`column`]: vertical line mass (column) per unit area and its derivatives, for block
+//! - [`column`](mod@column): vertical line mass (column) per unit area and its derivatives, for block
 //!   statistics evaluated by Taylor expansion.
-//! - [`ring_sector`]: annular sector of uniform height (Hammer 1939 compartments).
+//! - [`ring_sector`](mod@ring_sector): annular sector of uniform height (Hammer 1939 compartments).
 
 pub mod column;
 pub mod prism;
