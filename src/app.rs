@@ -376,8 +376,10 @@ pub fn correction_table_with(
             format_coord(s.input_xy.1),
         ];
         if transformed {
-            row.push(fixed(s.x, 3, &what("x_dem"))?);
-            row.push(fixed(s.y, 3, &what("y_dem"))?);
+            // Degrees want more decimals than metres (1e-8 degree is about a millimetre).
+            let decimals = if inputs.dem.is_geographic() { 8 } else { 3 };
+            row.push(fixed(s.x, decimals, &what("x_dem"))?);
+            row.push(fixed(s.y, decimals, &what("y_dem"))?);
         }
         row.push(fixed(s.elev, 3, &what("elev_m"))?);
         row.push(fixed(dem_elev, 3, &what("dem_elev_m"))?);
@@ -415,7 +417,7 @@ fn correct(args: &CorrectArgs) -> anyhow::Result<()> {
     let reduction = ReductionSettings::from_args(&args.reduction, settings.density_kg_m3)?;
     let target = check_target(&args.out)?;
     let inputs = load_inputs(&args.input)?;
-    let plan = settings.plan(inputs.dem.dx.max(inputs.dem.dy))?;
+    let plan = settings.plan(inputs.dem.cell_size_m())?;
     let engine = Engine::new(&inputs.dem, settings.engine, plan.clone());
     preflight(&inputs, &settings, &engine)?;
     let chain = crate::anomaly::prepare(&inputs, &settings, &reduction)?;
@@ -541,7 +543,7 @@ fn plan(args: &PlanArgs) -> anyhow::Result<()> {
         );
     }
     let dem = read_dem(&args.dem[0])?;
-    let cell = dem.dx.max(dem.dy);
+    let cell = dem.cell_size_m();
     let zone_plan = settings.plan(cell)?;
     let points = sample_points(&dem, settings.engine.outer_radius_m);
     let build_started = Instant::now();

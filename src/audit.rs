@@ -265,7 +265,7 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
     let dem = &inputs.dem;
     let table = &inputs.stations;
     let stations = &table.stations;
-    let plan = settings.plan(dem.dx.max(dem.dy))?;
+    let plan = settings.plan(dem.cell_size_m())?;
     let radius = settings.engine.outer_radius_m;
 
     // Legacy columns.

@@ -414,7 +414,7 @@ pub fn map(args: &MapArgs) -> anyhow::Result<()> {
         spacing,
     )?;
     let grid = node_grid(extent, spacing)?;
-    let plan = settings.plan(dem.dx.max(dem.dy))?;
+    let plan = settings.plan(dem.cell_size_m())?;
     let engine = Engine::new(&dem, settings.engine, plan);
 
     // Measured cost on a few nodes, before the long run.

@@ -84,7 +84,9 @@ pub fn write_atomically(path: &Path, bytes: &[u8]) -> anyhow::Result<()> {
     #[cfg(unix)]
     {
         use std::os::unix::fs::PermissionsExt;
-        let _ = tmp.as_file().set_permissions(std::fs::Permissions::from_mode(0o644));
+        let _ = tmp
+            .as_file()
+            .set_permissions(std::fs::Permissions::from_mode(0o644));
     }
     tmp.persist(path).map_err(|e| {
         anyhow::anyhow!(

@@ -240,7 +240,7 @@ pub fn sweep_dem(
     label: &str,
 ) -> anyhow::Result<DemSweep> {
     let dem = &inputs.dem;
-    let plan = settings.plan(dem.dx.max(dem.dy))?;
+    let plan = settings.plan(dem.cell_size_m())?;
     let (snapped, moved) = snap_to_sector_edges(&plan, radii);
     if !moved.is_empty() || snapped.len() != radii.len() {
         bail!(
@@ -284,7 +284,7 @@ pub fn sweep_dem(
         source: dem.source.clone(),
         cumulative_m: cumulative,
         coverage,
-        inner_radius_m: inner_zone_radius_m(&plan, dem.dx.max(dem.dy)),
+        inner_radius_m: inner_zone_radius_m(&plan, dem.cell_size_m()),
     })
 }
 
@@ -374,8 +374,8 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
         compare_inputs.push((label, other));
     }
 
-    let plan = settings.plan(inputs.dem.dx.max(inputs.dem.dy))?;
-    let inner_m = inner_zone_radius_m(&plan, inputs.dem.dx.max(inputs.dem.dy));
+    let plan = settings.plan(inputs.dem.cell_size_m())?;
+    let inner_m = inner_zone_radius_m(&plan, inputs.dem.cell_size_m());
     let asked = match &args.radii {
         Some(text) => parse_radii(text, inner_m, outer)?,
         None => default_radii(inner_m, outer),

@@ -408,7 +408,9 @@ fn raster_gdal_cannot_open_is_refused() {
 }
 
 #[test]
-fn geographic_dem_is_refused() {
+fn stations_in_metres_on_a_geographic_dem_are_refused() {
+    // A geographic DEM is read as is (tests/geographic.rs); stations whose coordinates are
+    // in metres then lie far outside it, and the message says so.
     let s = setup();
     let geo = Dem::from_fn("geo", 40, 40, 14.9, 45.2, 0.001, |_, _| 300.0);
     let path = s.dir.write_dem_crs("geographic.tif", &geo, "EPSG:4326");
@@ -416,7 +418,12 @@ fn geographic_dem_is_refused() {
     refused(
         &s.dir,
         cmd,
-        &["geographic.tif", "geographic", "warp it to a projected CRS"],
+        &[
+            "stations.csv",
+            "outside the data of",
+            "geographic.tif",
+            "--stations-crs",
+        ],
     );
 }
 

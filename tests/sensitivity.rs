@@ -438,6 +438,8 @@ fn compare_dem_reports_the_difference_at_every_radius() {
             dy: 50.0,
             heights,
             crs_wkt: String::new(),
+            kind: ringsum::dem::GridKind::Projected,
+            weights: None,
         }
     };
     let coarse = h.dir.write_dem("hill_50m.tif", &coarse);

@@ -30,6 +30,20 @@ pub struct Dem {
     pub heights: Vec<f32>,
     /// Coordinate reference system as WKT ("" when unknown).
     pub crs_wkt: String,
+    /// Projected (metres) or geographic (degrees of longitude and latitude) grid.
+    pub kind: GridKind,
+    /// Share of each cell this DEM contributes, 0..1 (`None`: all of every cell). A finer
+    /// DEM given before this one takes the rest (see [`crate::engine::layers`]).
+    pub weights: Option<Vec<f32>>,
+}
+
+/// How grid coordinates relate to the ground.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum GridKind {
+    /// Eastings and northings in metres of a projected CRS.
+    Projected,
+    /// Longitudes (x) and latitudes (y) in degrees on this ellipsoid.
+    Geographic(crate::engine::frame::Ellipsoid),
 }
 
 impl Dem {
@@ -61,6 +75,68 @@ impl Dem {
             dy: cell,
             heights,
             crs_wkt: String::new(),
+            kind: GridKind::Projected,
+            weights: None,
+        }
+    }
+
+    /// Whether the grid is in longitude and latitude.
+    pub fn is_geographic(&self) -> bool {
+        matches!(self.kind, GridKind::Geographic(_))
+    }
+
+    /// Share of cell `(col, row)` this DEM contributes (1 without weights).
+    #[inline]
+    pub fn weight(&self, col: usize, row: usize) -> f64 {
+        match &self.weights {
+            Some(w) => w[row * self.cols + col] as f64,
+            None => 1.0,
+        }
+    }
+
+    /// Area of a cell of row `row` relative to [`Dem::reference_area`] (1 for a
+    /// projected grid; the cosine of the latitude ratio for a geographic one).
+    #[inline]
+    pub fn area_factor(&self, row: usize) -> f64 {
+        match self.kind {
+            GridKind::Projected => 1.0,
+            GridKind::Geographic(_) => self.row_center_y(row).to_radians().cos(),
+        }
+    }
+
+    /// The larger side of a cell in metres (at the grid's middle latitude for a
+    /// geographic grid): the cell size the zone plan is built for.
+    pub fn cell_size_m(&self) -> f64 {
+        match self.kind {
+            GridKind::Projected => self.dx.max(self.dy),
+            GridKind::Geographic(ell) => {
+                let mid = 0.5 * (self.y_top + self.y_bottom());
+                let (n, m) = ell.radii(mid.to_radians());
+                (n * mid.to_radians().cos() * self.dx.to_radians()).max(m * self.dy.to_radians())
+            }
+        }
+    }
+
+    /// [`Dem::area_factor`] at grid northing (or latitude) `y`.
+    #[inline]
+    pub fn area_factor_y(&self, y: f64) -> f64 {
+        match self.kind {
+            GridKind::Projected => 1.0,
+            GridKind::Geographic(_) => y.to_radians().cos(),
+        }
+    }
+
+    /// Area of a cell whose [`Dem::area_factor`] is 1, m^2: `dx dy` for a projected
+    /// grid, `M N dphi dlambda` (radians) at the grid's middle latitude for a geographic
+    /// one (cells at latitude phi have `cos(phi)` of it, to the variation of M N).
+    pub fn reference_area(&self) -> f64 {
+        match self.kind {
+            GridKind::Projected => self.dx * self.dy,
+            GridKind::Geographic(ell) => {
+                let mid = 0.5 * (self.y_top + self.y_bottom());
+                let (n, m) = ell.radii(mid.to_radians());
+                n * m * self.dx.to_radians() * self.dy.to_radians()
+            }
         }
     }
 

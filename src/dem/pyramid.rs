@@ -162,6 +162,8 @@ pub struct Level {
     pub rows: usize,
     /// Block statistics, row-major from the north-west.
     pub blocks: Vec<BlockStats>,
+    /// Cells of each block on the grid without data (for coverage).
+    pub missing: Vec<u32>,
 }
 
 /// The block-statistics pyramid of a DEM.
@@ -207,8 +209,18 @@ impl Pyramid {
     pub fn bytes(&self) -> usize {
         self.levels
             .iter()
-            .map(|l| l.blocks.len() * std::mem::size_of::<BlockStats>())
+            .map(|l| {
+                l.blocks.len() * (std::mem::size_of::<BlockStats>() + std::mem::size_of::<u32>())
+            })
             .sum()
+    }
+
+    /// Cells without data of block `(bcol, brow)` at `level` (any level).
+    pub fn missing(&self, dem: &Dem, level: u32, bcol: usize, brow: usize) -> u32 {
+        match self.level(level) {
+            Some(l) => l.missing[brow * l.cols + bcol],
+            None => missing_from_dem(dem, level, bcol, brow),
+        }
     }
 }
 
@@ -231,17 +243,36 @@ pub fn block_from_dem(dem: &Dem, level: u32, bcol: usize, brow: usize) -> BlockS
     let half_e = 0.5 * size as f64 * dem.dx;
     let half_n = 0.5 * size as f64 * dem.dy;
     let mut acc = StatsAccumulator::default();
-    // Heights relative to the first valid height keep the moments well conditioned.
     for row in r0..r1 {
         let n = half_n - ((row - r0) as f64 + 0.5) * dem.dy;
+        let area = dem.area_factor(row);
         for col in c0..c1 {
             if let Some(h) = dem.height(col, row) {
-                let e = ((col - c0) as f64 + 0.5) * dem.dx - half_e;
-                acc.add_point(e, n, h, 1.0);
+                let w = area * dem.weight(col, row);
+                if w > 0.0 {
+                    let e = ((col - c0) as f64 + 0.5) * dem.dx - half_e;
+                    acc.add_point(e, n, h, w);
+                }
             }
         }
     }
     acc.finish()
+}
+
+/// Cells of block `(bcol, brow)` at `level` that lie on the grid but have no data.
+pub fn missing_from_dem(dem: &Dem, level: u32, bcol: usize, brow: usize) -> u32 {
+    let size = 1usize << level;
+    let (c0, r0) = (bcol * size, brow * size);
+    let (c1, r1) = ((c0 + size).min(dem.cols), (r0 + size).min(dem.rows));
+    let mut missing = 0;
+    for row in r0..r1 {
+        for col in c0..c1 {
+            if dem.height(col, row).is_none() {
+                missing += 1;
+            }
+        }
+    }
+    missing
 }
 
 fn level_from_dem(dem: &Dem, level: u32) -> Level {
@@ -252,11 +283,16 @@ fn level_from_dem(dem: &Dem, level: u32) -> Level {
         .into_par_iter()
         .flat_map_iter(|brow| (0..cols).map(move |bcol| block_from_dem(dem, level, bcol, brow)))
         .collect();
+    let missing: Vec<u32> = (0..rows)
+        .into_par_iter()
+        .flat_map_iter(|brow| (0..cols).map(move |bcol| missing_from_dem(dem, level, bcol, brow)))
+        .collect();
     Level {
         level,
         cols,
         rows,
         blocks,
+        missing,
     }
 }
 
@@ -288,11 +324,18 @@ fn level_from_finer(finer: &Level, dx: f64, dy: f64) -> Level {
             })
         })
         .collect();
+    let mut missing = vec![0u32; cols * rows];
+    for r in 0..finer.rows {
+        for c in 0..finer.cols {
+            missing[(r / 2) * cols + c / 2] += finer.missing[r * finer.cols + c];
+        }
+    }
     Level {
         level,
         cols,
         rows,
         blocks,
+        missing,
     }
 }
 

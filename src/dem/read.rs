@@ -1,6 +1,7 @@
 //! Reading a DEM with GDAL: the only place that opens rasters.
 
-use super::Dem;
+use super::{Dem, GridKind};
+use crate::engine::frame::Ellipsoid;
 use gdal::Dataset;
 use std::path::Path;
 
@@ -23,8 +24,10 @@ pub enum DemError {
         "{path}: the raster is stored south-up or east-to-west; warp it north-up with gdalwarp"
     )]
     Flipped { path: String },
-    #[error("{path}: the DEM is in a geographic (longitude/latitude) CRS; geographic DEMs are not supported yet: warp it to a projected CRS in metres, e.g. gdalwarp -t_srs EPSG:326xx")]
-    Geographic { path: String },
+    #[error("{path}: the geographic CRS's angular unit is {unit}, not degrees; warp it to a CRS in degrees or metres")]
+    NotDegrees { path: String, unit: String },
+    #[error("{path}: the geographic grid reaches past latitude 90 or longitude +-360; give a grid within -180..180 (or 0..360) and -90..90")]
+    GeographicRange { path: String },
     #[error("{path}: the DEM has no coordinate reference system; assign one with gdal_edit.py -a_srs EPSG:xxxx")]
     NoCrs { path: String },
     #[error("{path}: the CRS's horizontal unit is {unit} ({factor} m), not metres; warp it to a CRS in metres")]
@@ -90,20 +93,40 @@ pub fn read_dem(path: &Path) -> Result<Dem, DemError> {
     let srs = ds
         .spatial_ref()
         .map_err(|_| DemError::NoCrs { path: p.clone() })?;
-    if srs.is_geographic() {
-        return Err(DemError::Geographic { path: p });
-    }
-    if !srs.is_projected() {
+    let kind = if srs.is_geographic() {
+        let degree = std::f64::consts::PI / 180.0;
+        if (srs.angular_units() - degree).abs() > 1e-12 {
+            return Err(DemError::NotDegrees {
+                path: p,
+                unit: srs.angular_units_name().unwrap_or_else(|| "unknown".into()),
+            });
+        }
+        let a = srs
+            .semi_major()
+            .map_err(|_| DemError::NoCrs { path: p.clone() })?;
+        let b = srs
+            .semi_minor()
+            .map_err(|_| DemError::NoCrs { path: p.clone() })?;
+        if gt[0] < -360.0
+            || gt[0] + gt[1] * ds.raster_size().0 as f64 > 360.0
+            || gt[3] > 90.0 + 1e-9
+        {
+            return Err(DemError::GeographicRange { path: p });
+        }
+        GridKind::Geographic(Ellipsoid { a, f: (a - b) / a })
+    } else if srs.is_projected() {
+        let factor = srs.linear_units();
+        if (factor - 1.0).abs() > 1e-9 {
+            return Err(DemError::NotMetres {
+                path: p,
+                unit: srs.linear_units_name().unwrap_or_else(|| "unknown".into()),
+                factor,
+            });
+        }
+        GridKind::Projected
+    } else {
         return Err(DemError::NoCrs { path: p });
-    }
-    let factor = srs.linear_units();
-    if (factor - 1.0).abs() > 1e-9 {
-        return Err(DemError::NotMetres {
-            path: p,
-            unit: srs.linear_units_name().unwrap_or_else(|| "unknown".into()),
-            factor,
-        });
-    }
+    };
     let crs_wkt = srs.to_wkt().unwrap_or_default();
     let band = ds.rasterband(1).map_err(|e| DemError::Read {
         path: p.clone(),
@@ -153,6 +176,8 @@ pub fn read_dem(path: &Path) -> Result<Dem, DemError> {
         dy: -gt[5],
         heights,
         crs_wkt,
+        kind,
+        weights: None,
     })
 }
 

@@ -25,7 +25,8 @@
 //! prism at the mean height plus the height terms instead was measured no more accurate
 //! on the test terrains, and slower.)
 
-use super::{CellBox, Parts, Point};
+use super::frame::Frame;
+use super::{region, CellBox, Parts, Point};
 use crate::dem::pyramid::{block_from_dem, BlockStats, Pyramid};
 use crate::dem::Dem;
 use crate::kernels::column::column_taylor;
@@ -96,12 +97,17 @@ fn block_stats(dem: &Dem, pyramid: &Pyramid, level: u32, bcol: usize, brow: usiz
     }
 }
 
-/// Moments of the cell centres of `cols c0..c1, rows r0..r1` whose distance from the
-/// station is below `radius`; offsets relative to `(ce, cn)` (the station-relative block
-/// centre) are returned as station-relative values.
+/// Moments, in the station's frame, of the cell centres of `cols c0..c1, rows r0..r1`
+/// that lie within `radius` of the station: `(count, e, n, C_ee, C_en, C_nn)`. The frame
+/// is linearised about the block's centre (`centre` grid, `local` its local position,
+/// `j` the Jacobian there), exact on a projected grid and close on a geographic one for
+/// the blocks this is used for (small against their distance).
+#[allow(clippy::too_many_arguments)]
 fn inside_geometry(
     dem: &Dem,
-    p: Point,
+    centre: (f64, f64),
+    local: (f64, f64),
+    j: [[f64; 2]; 2],
     c0: usize,
     c1: usize,
     r0: usize,
@@ -114,34 +120,44 @@ fn inside_geometry(
     // row and weighted by its row count: the moments are smooth in the row, and cut
     // blocks lie at the edge of the zone, where their part is small.
     let band = (r1 - r0).div_ceil(MAX_BANDS);
+    let (de_col, dn_col) = (j[0][0] * dem.dx, j[1][0] * dem.dx);
+    let (de_row, dn_row) = (-j[0][1] * dem.dy, -j[1][1] * dem.dy);
+    let x_first = dem.col_center_x(c0);
     for band_start in (r0..r1).step_by(band) {
-        let band_rows = band.min(r1 - band_start);
-        let weight = band_rows as f64;
-        let n = dem.y_top - (band_start as f64 + 0.5 * weight) * dem.dy - p.y;
-        if n.abs() >= radius {
+        let rows = band.min(r1 - band_start);
+        let weight = rows as f64;
+        let y = dem.y_top - (band_start as f64 + 0.5 * weight) * dem.dy;
+        // Local position of the band's first cell, then a straight line along the row.
+        let (dxg, dyg) = (x_first - centre.0, y - centre.1);
+        let e0 = local.0 + j[0][0] * dxg + j[0][1] * dyg;
+        let n0 = local.1 + j[1][0] * dxg + j[1][1] * dyg;
+        // Columns i >= 0 with |(e0, n0) + i (de, dn)|^2 < radius^2.
+        let qa = de_col * de_col + dn_col * dn_col;
+        let qb = 2.0 * (e0 * de_col + n0 * dn_col);
+        let qc = e0 * e0 + n0 * n0 - radius * radius;
+        let disc = qb * qb - 4.0 * qa * qc;
+        if disc <= 0.0 {
             continue;
         }
-        let half = (radius * radius - n * n).sqrt();
-        let (lo, hi) = super::index_range(dem.x_left, dem.dx, p.x, half);
-        let lo = lo.max(c0 as i64);
-        let hi = hi.min(c1 as i64 - 1);
+        let sq = disc.sqrt();
+        let (t_lo, t_hi) = ((-qb - sq) / (2.0 * qa), (-qb + sq) / (2.0 * qa));
+        let lo = (t_lo.floor() as i64 + 1).max(0);
+        let hi = (t_hi.ceil() as i64 - 1).min((c1 - c0) as i64 - 1);
         if hi < lo {
             continue;
         }
         let count = (hi - lo + 1) as f64;
-        // Eastings of centres lo..=hi form an arithmetic series.
-        let e_lo = dem.col_center_x(lo as usize) - p.x;
-        let e_hi = dem.col_center_x(hi as usize) - p.x;
-        let mean_e = 0.5 * (e_lo + e_hi);
-        let var_e = (count * count - 1.0) / 12.0 * dem.dx * dem.dx;
+        let mid = 0.5 * (lo + hi) as f64;
+        let (mean_e, mean_n) = (e0 + mid * de_col, n0 + mid * dn_col);
+        let v_cols = (count * count - 1.0) / 12.0;
+        let v_rows = (weight * weight - 1.0) / 12.0;
         let w = weight * count;
-        let var_n = (weight * weight - 1.0) / 12.0 * dem.dy * dem.dy;
         k += w;
         se += w * mean_e;
-        sn += w * n;
-        see += w * (var_e + mean_e * mean_e);
-        sen += w * mean_e * n;
-        snn += w * (var_n + n * n);
+        sn += w * mean_n;
+        see += w * (mean_e * mean_e + v_cols * de_col * de_col + v_rows * de_row * de_row);
+        sen += w * (mean_e * mean_n + v_cols * de_col * dn_col + v_rows * de_row * dn_row);
+        snn += w * (mean_n * mean_n + v_cols * dn_col * dn_col + v_rows * dn_row * dn_row);
     }
     if k == 0.0 {
         return None;
@@ -165,26 +181,22 @@ const MAX_BANDS: usize = 64;
 /// Walks the quadtree over the prism and block rings, out to `outer_m`, adding each
 /// element to the ring holding its centroid.
 #[allow(clippy::too_many_arguments)]
-pub fn walk(
+pub fn walk<F: Frame>(
     dem: &Dem,
     pyramid: &Pyramid,
     plan: &ZonePlan,
+    frame: &F,
     p: Point,
     curvature: f64,
     outer_m: f64,
     inner: Option<CellBox>,
     parts: &mut Parts,
 ) {
-    let top = pyramid.top_level().max({
-        let mut l = 0;
-        while (1usize << l) < dem.cols.max(dem.rows) {
-            l += 1;
-        }
-        l
-    });
-    let side = dem.dx.max(dem.dy);
-    let cell_area = dem.dx * dem.dy;
-    let (vx, vy) = (dem.dx * dem.dx / 12.0, dem.dy * dem.dy / 12.0);
+    let mut top = 0;
+    while (1usize << top) < dem.cols.max(dem.rows) {
+        top += 1;
+    }
+    let plane = frame.is_plane();
     let quad_rings = plan
         .rings
         .iter()
@@ -196,12 +208,7 @@ pub fn walk(
     let ring_of = |d: f64| plan.ring_at(d).min(quad_rings - 1);
     let outer2 = outer_m * outer_m;
     let mut stack: Vec<(u32, usize, usize)> = Vec::with_capacity(64);
-    let size_top = 1usize << top;
-    for brow in 0..dem.rows.div_ceil(size_top) {
-        for bcol in 0..dem.cols.div_ceil(size_top) {
-            stack.push((top, bcol, brow));
-        }
-    }
+    stack.push((top, 0, 0));
     while let Some((level, bcol, brow)) = stack.pop() {
         let size = 1usize << level;
         let c0 = bcol * size;
@@ -211,26 +218,8 @@ pub fn walk(
         }
         let c1 = (c0 + size).min(dem.cols);
         let r1 = (r0 + size).min(dem.rows);
-        // Station-relative rectangle of the block's cells on the grid.
-        let e_lo = dem.x_left + c0 as f64 * dem.dx - p.x;
-        let e_hi = dem.x_left + c1 as f64 * dem.dx - p.x;
-        let n_hi = dem.y_top - r0 as f64 * dem.dy - p.y;
-        let n_lo = dem.y_top - r1 as f64 * dem.dy - p.y;
-        let near_e = if e_lo > 0.0 {
-            e_lo
-        } else if e_hi < 0.0 {
-            -e_hi
-        } else {
-            0.0
-        };
-        let near_n = if n_lo > 0.0 {
-            n_lo
-        } else if n_hi < 0.0 {
-            -n_hi
-        } else {
-            0.0
-        };
-        let dmin2 = near_e * near_e + near_n * near_n;
+        let rect = region::block_rect(dem, frame, c0, c1, r0, r1);
+        let dmin2 = rect.near2();
         if dmin2 >= outer2 {
             continue;
         }
@@ -243,18 +232,31 @@ pub fn walk(
             let Some(h) = dem.height(c0, r0) else {
                 continue;
             };
-            let e_c = 0.5 * (e_lo + e_hi);
-            let n_c = 0.5 * (n_lo + n_hi);
+            let w = dem.weight(c0, r0);
+            if w == 0.0 {
+                continue;
+            }
+            let (x, y) = (dem.col_center_x(c0), dem.row_center_y(r0));
+            let (e_c, n_c) = if plane {
+                rect.centre()
+            } else {
+                frame.local(x, y)
+            };
             let s2 = e_c * e_c + n_c * n_c;
             if s2 >= outer2 {
                 continue;
             }
+            let (cw, ch) = frame.cell_size(x, y, dem.dx, dem.dy);
             let d = 0.5 * curvature * s2;
-            parts.add(
-                ring_of(s2.sqrt()),
-                prism_kernel(e_lo, e_hi, n_lo, n_hi, -d, h - p.elev - d),
-                cell_area,
+            let k = prism_kernel(
+                e_c - 0.5 * cw,
+                e_c + 0.5 * cw,
+                n_c - 0.5 * ch,
+                n_c + 0.5 * ch,
+                -d,
+                h - p.elev - d,
             );
+            parts.add(ring_of(s2.sqrt()), w * k, w * cw * ch);
             continue;
         }
         let split = |stack: &mut Vec<(u32, usize, usize)>| {
@@ -266,13 +268,14 @@ pub fn walk(
             split(&mut stack);
             continue;
         }
+        // Geometric centre of the nominal block (the pyramid's offsets refer to it).
+        let gx = dem.x_left + (bcol as f64 + 0.5) * size as f64 * dem.dx;
+        let gy = dem.y_top - (brow as f64 + 0.5) * size as f64 * dem.dy;
+        let (cw, ch) = frame.cell_size(gx, gy, dem.dx, dem.dy);
+        let (e_c, n_c) = rect.centre();
         let ring = ring_of(dmin2.sqrt());
         let accept = match plan.rings[ring].method {
-            RingMethod::Blocks { ratio } => {
-                let e_c = 0.5 * (e_lo + e_hi);
-                let n_c = 0.5 * (n_lo + n_hi);
-                (size as f64) * side <= ratio * e_c.hypot(n_c)
-            }
+            RingMethod::Blocks { ratio } => (size as f64) * cw.max(ch) <= ratio * e_c.hypot(n_c),
             _ => false,
         };
         if !accept {
@@ -285,39 +288,65 @@ pub fn walk(
         }
         // Rough blocks (a cliff, a gorge) split further: the second-order expansion in
         // height needs the height spread to stay small against the distance.
-        let e_c = 0.5 * (e_lo + e_hi);
-        let n_c = 0.5 * (n_lo + n_hi);
         if (stats.hh as f64) > ROUGHNESS_MAX_RATIO.powi(2) * (e_c * e_c + n_c * n_c) {
             split(&mut stack);
             continue;
         }
-        // Geometric centre of the nominal block (the pyramid's offsets refer to it).
-        let ge = dem.x_left + (bcol as f64 + 0.5) * size as f64 * dem.dx - p.x;
-        let gn = dem.y_top - (brow as f64 + 0.5) * size as f64 * dem.dy - p.y;
-        let mut m = Moments {
-            n: stats.n as f64,
-            e: ge + stats.ex as f64,
-            nn_: gn + stats.ny as f64,
-            h: stats.h as f64 - p.elev,
-            hh: stats.hh as f64,
-            he: stats.he as f64,
-            hn: stats.hn as f64,
-            ee: stats.ee as f64,
-            en: stats.en as f64,
-            nn: stats.nn as f64,
-            hhe: stats.hhe as f64,
-            hhn: stats.hhn as f64,
-        };
-        let far_corner_e = e_lo.abs().max(e_hi.abs());
-        let far_corner_n = n_lo.abs().max(n_hi.abs());
-        let cut = far_corner_e * far_corner_e + far_corner_n * far_corner_n >= outer2;
-        if cut && (size as f64) * side > CUT_BLOCK_MAX_RATIO * outer_m {
+        let cut = rect.far_centre2(0.0, 0.0) >= outer2;
+        if cut && (size as f64) * cw.max(ch) > CUT_BLOCK_MAX_RATIO * outer_m {
             split(&mut stack);
             continue;
         }
+        // Centroid and moments in the station's frame: m = J (grid moments) J^T.
+        let (cx, cy) = (gx + stats.ex as f64, gy + stats.ny as f64);
+        let (ce, cn) = if plane {
+            (cx - p.x, cy - p.y)
+        } else {
+            frame.local(cx, cy)
+        };
+        let j = frame.jacobian(cx, cy);
+        let lin = |a: f64, b: f64| (j[0][0] * a + j[0][1] * b, j[1][0] * a + j[1][1] * b);
+        let (he, hn) = lin(stats.he as f64, stats.hn as f64);
+        let (hhe, hhn) = lin(stats.hhe as f64, stats.hhn as f64);
+        let (gee, gen, gnn) = (stats.ee as f64, stats.en as f64, stats.nn as f64);
+        let ee = j[0][0] * j[0][0] * gee + 2.0 * j[0][0] * j[0][1] * gen + j[0][1] * j[0][1] * gnn;
+        let en = j[0][0] * j[1][0] * gee
+            + (j[0][0] * j[1][1] + j[0][1] * j[1][0]) * gen
+            + j[0][1] * j[1][1] * gnn;
+        let nn = j[1][0] * j[1][0] * gee + 2.0 * j[1][0] * j[1][1] * gen + j[1][1] * j[1][1] * gnn;
+        // Area of one unit of the pyramid's weight (a cell at area factor 1) here.
+        let unit_area = cw * ch / dem.area_factor_y(gy);
+        let mut m = Moments {
+            n: stats.n as f64,
+            e: ce,
+            nn_: cn,
+            h: stats.h as f64 - p.elev,
+            hh: stats.hh as f64,
+            he,
+            hn,
+            ee,
+            en,
+            nn,
+            hhe,
+            hhn,
+        };
         if cut {
-            let Some((k, e, n, ee, en, nn)) = inside_geometry(dem, p, c0, c1, r0, r1, outer_m)
-            else {
+            let centre_local = if plane {
+                (gx - p.x, gy - p.y)
+            } else {
+                frame.local(gx, gy)
+            };
+            let Some((k, e, n, ee, en, nn)) = inside_geometry(
+                dem,
+                (gx, gy),
+                centre_local,
+                frame.jacobian(gx, gy),
+                c0,
+                c1,
+                r0,
+                r1,
+                outer_m,
+            ) else {
                 continue;
             };
             // Height trend of the block: beta solves C_xy beta = C_hxy.
@@ -330,9 +359,9 @@ pub fn walk(
             } else {
                 (0.0, 0.0)
             };
-            let valid_fraction = m.n / ((c1 - c0) * (r1 - r0)) as f64;
+            let mean_weight = m.n / ((c1 - c0) * (r1 - r0)) as f64;
             m = Moments {
-                n: k * valid_fraction,
+                n: k * mean_weight,
                 e,
                 nn_: n,
                 h: m.h + be * (e - m.e) + bn * (n - m.nn_),
@@ -347,6 +376,7 @@ pub fn walk(
             };
         }
         let r = m.e.hypot(m.nn_);
+        let (vx, vy) = (cw * cw / 12.0, ch * ch / 12.0);
         let (f, height_terms, spatial_terms, high_order) = taylor_terms(&m, vx, vy, curvature);
         let per_cell = f + height_terms + spatial_terms;
         // Where the higher-order terms are not small the expansion is not to be trusted:
@@ -355,7 +385,6 @@ pub fn walk(
             split(&mut stack);
             continue;
         }
-        let value = m.n * cell_area * per_cell;
-        parts.add(ring_of(r), value, m.n * cell_area);
+        parts.add(ring_of(r), m.n * unit_area * per_cell, m.n * unit_area);
     }
 }

@@ -9,13 +9,14 @@
 //! are shared by the cells of a row: each node's term is computed once per row instead
 //! of once per cell corner (DESIGN.md, numerics).
 
-use super::{index_range, inner, CellBox, Engine, InnerModel, Parts, Point};
+use super::frame::Frame;
+use super::{index_range, inner, region, CellBox, Engine, InnerModel, Parts, Point};
 use crate::kernels::prism::{footprint_phi, nagy_corner, CLOSED_FORM_MAX_RATIO};
 use crate::kernels::{prism_kernel, prism_kernel_closed_form};
 use crate::zones::InnerZone;
 
-/// Adds the exact method's parts for point `p`.
-pub fn exact_parts(engine: &Engine, p: Point, parts: &mut Parts) {
+/// Adds the exact method's parts for point `p` (grid coordinates) in `frame`.
+pub fn exact_parts<F: Frame>(engine: &Engine, frame: &F, p: Point, parts: &mut Parts) {
     let dem = engine.dem;
     let config = &engine.config;
     let radius = config.outer_radius_m;
@@ -28,8 +29,14 @@ pub fn exact_parts(engine: &Engine, p: Point, parts: &mut Parts) {
     let inner_box = CellBox::around(dem, p.x, p.y, half_width);
     let surface = config.inner_model == InnerModel::Surface;
     if surface {
-        parts.inner +=
-            inner::surface_square(dem, p, &inner_box, curvature, &mut parts.inner_elements);
+        parts.inner += inner::surface_square(
+            dem,
+            frame,
+            p,
+            &inner_box,
+            curvature,
+            &mut parts.inner_elements,
+        );
     }
     let ring_outer2: Vec<f64> = engine
         .plan
@@ -40,26 +47,37 @@ pub fn exact_parts(engine: &Engine, p: Point, parts: &mut Parts) {
     let last_ring = ring_outer2.len().saturating_sub(1);
     let ring_of = |s2: f64| ring_outer2.partition_point(|&o2| o2 <= s2).min(last_ring);
 
-    let (r_lo, r_hi) = index_range(-dem.y_top, dem.dy, -p.y, radius);
-    let r_lo = r_lo.max(0);
-    let r_hi = r_hi.min(dem.rows as i64 - 1);
-    let side = dem.dx.max(dem.dy);
-    let cell_area = dem.cell_area();
-    let shared = curvature == 0.0;
+    let (_, _, y_lo, y_hi) = region::disc_bbox(frame, radius);
+    let r_lo = (((dem.y_top - y_hi) / dem.dy - 0.5).floor() as i64).max(0);
+    let r_hi = (((dem.y_top - y_lo) / dem.dy - 0.5).ceil() as i64).min(dem.rows as i64 - 1);
+    let plane = frame.is_plane();
+    let shared = curvature == 0.0 && plane;
     let mut base_top: Vec<f64> = Vec::new();
     let mut base_bottom: Vec<f64> = Vec::new();
     for r in r_lo..=r_hi {
         let row = r as usize;
-        let n_c = dem.row_center_y(row) - p.y;
-        let half = (r2max - n_c * n_c).max(0.0).sqrt();
-        let (c_lo, c_hi) = index_range(dem.x_left, dem.dx, p.x, half);
+        let y = dem.row_center_y(row);
+        let Some((xa, xb)) = region::row_chord(frame, p.x, y, radius) else {
+            continue;
+        };
+        // On a geographic grid the chord is an estimate: widen it and test each cell.
+        let widen = if plane {
+            0.0
+        } else {
+            0.02 * (xb - xa) + 2.0 * dem.dx
+        };
+        let (c_lo, c_hi) =
+            index_range(dem.x_left, dem.dx, 0.5 * (xa + xb), 0.5 * (xb - xa) + widen);
         let c_lo = c_lo.max(0);
         let c_hi = c_hi.min(dem.cols as i64 - 1);
         if c_hi < c_lo {
             continue;
         }
-        let n1 = n_c - 0.5 * dem.dy;
-        let n2 = n_c + 0.5 * dem.dy;
+        let (cw, ch) = frame.cell_size(p.x, y, dem.dx, dem.dy);
+        let side = cw.max(ch);
+        let cell_area = cw * ch;
+        let n_row = if plane { y - p.y } else { 0.0 };
+        let (n1, n2) = (n_row - 0.5 * ch, n_row + 0.5 * ch);
         let e_of = |c: usize| dem.x_left + c as f64 * dem.dx - p.x;
         if shared {
             // Node terms at u = 0 for the row's nodes near enough for the closed form.
@@ -71,7 +89,7 @@ pub fn exact_parts(engine: &Engine, p: Point, parts: &mut Parts) {
             let near_limit = CLOSED_FORM_MAX_RATIO * side + side;
             for k in 0..n_nodes {
                 let e = e_of(c_lo as usize + k);
-                if e.hypot(n_c) < near_limit {
+                if e.hypot(n_row) < near_limit {
                     base_top[k] = nagy_corner(e, n2, 0.0);
                     base_bottom[k] = nagy_corner(e, n1, 0.0);
                 }
@@ -81,42 +99,50 @@ pub fn exact_parts(engine: &Engine, p: Point, parts: &mut Parts) {
             let Some(h) = dem.height(c, row) else {
                 continue;
             };
-            let e1 = e_of(c);
-            let e2 = e1 + dem.dx;
-            let e_c = 0.5 * (e1 + e2);
+            let w = dem.weight(c, row);
+            if w == 0.0 {
+                continue;
+            }
+            let (e_c, n_c) = if plane {
+                (e_of(c) + 0.5 * cw, n_row)
+            } else {
+                frame.local(dem.col_center_x(c), y)
+            };
             let s2 = e_c * e_c + n_c * n_c;
             if s2 >= r2max {
                 continue;
             }
             let in_inner = inner_box.contains(c as i64, r);
             if in_inner && surface {
-                parts.area_m2 += cell_area;
+                parts.area_m2 += cell_area * w;
                 continue;
             }
             let dh = h - p.elev;
             if dh == 0.0 {
-                parts.area_m2 += cell_area;
+                parts.area_m2 += cell_area * w;
                 continue;
             }
             let drop = 0.5 * curvature * s2;
             let u_ref = -drop;
             let u_top = dh - drop;
+            let (e1, e2) = (e_c - 0.5 * cw, e_c + 0.5 * cw);
+            let (m1, m2) = (n_c - 0.5 * ch, n_c + 0.5 * ch);
             let ratio = s2.sqrt() / side;
             let k = if shared && ratio < CLOSED_FORM_MAX_RATIO {
                 let j = c - c_lo as usize;
                 let phi_ref = base_top[j + 1] - base_top[j] - base_bottom[j + 1] + base_bottom[j];
                 phi_ref - footprint_phi(e1, e2, n1, n2, u_top)
             } else if ratio < CLOSED_FORM_MAX_RATIO {
-                prism_kernel_closed_form(e1, e2, n1, n2, u_ref, u_top)
+                prism_kernel_closed_form(e1, e2, m1, m2, u_ref, u_top)
             } else {
-                prism_kernel(e1, e2, n1, n2, u_ref, u_top)
+                prism_kernel(e1, e2, m1, m2, u_ref, u_top)
             };
             if in_inner {
-                parts.inner += k;
+                parts.inner += w * k;
                 parts.inner_elements += 1;
-                parts.area_m2 += cell_area;
+                parts.area_m2 += cell_area * w;
             } else {
-                parts.add(ring_of(s2), k, cell_area);
+                parts.add(ring_of(s2), w * k, cell_area * w);
             }
         }
     }

@@ -15,13 +15,16 @@
 
 pub mod blocks;
 pub mod exact;
+pub mod frame;
 pub mod inner;
+pub mod region;
 pub mod sectors;
 
 use crate::dem::pyramid::Pyramid;
-use crate::dem::Dem;
+use crate::dem::{Dem, GridKind};
 use crate::units::{EARTH_RADIUS_M, G};
 use crate::zones::{InnerZone, ZoneGroup, ZonePlan};
+use frame::{Frame, GeographicFrame, ProjectedFrame};
 use rayon::prelude::*;
 
 /// How the Earth's shape enters the correction.
@@ -200,14 +203,18 @@ pub fn count_disc(dem: &Dem, x: f64, y: f64, radius: f64) -> DiscCount {
 
 /// Cell positions inside the disc: all of them (the grid extended with its own
 /// spacing) and those on the grid, counted row by row.
-fn disc_positions(dem: &Dem, x: f64, y: f64, radius: f64) -> (u64, u64) {
+fn disc_positions<F: Frame>(dem: &Dem, frame: &F, x: f64, radius: f64) -> (u64, u64) {
     let mut on_grid = 0u64;
     let mut total = 0u64;
-    let (r_lo, r_hi) = index_range(-dem.y_top, dem.dy, -y, radius);
+    let (_, _, y_lo, y_hi) = region::disc_bbox(frame, radius);
+    let r_lo = ((dem.y_top - y_hi) / dem.dy - 0.5).floor() as i64;
+    let r_hi = ((dem.y_top - y_lo) / dem.dy - 0.5).ceil() as i64;
     for r in r_lo..=r_hi {
         let cy = dem.y_top - (r as f64 + 0.5) * dem.dy;
-        let half = (radius * radius - (cy - y) * (cy - y)).max(0.0).sqrt();
-        let (c_lo, c_hi) = index_range(dem.x_left, dem.dx, x, half);
+        let Some((xa, xb)) = region::row_chord(frame, x, cy, radius) else {
+            continue;
+        };
+        let (c_lo, c_hi) = index_range(dem.x_left, dem.dx, 0.5 * (xa + xb), 0.5 * (xb - xa));
         if c_hi < c_lo {
             continue;
         }
@@ -228,28 +235,40 @@ fn disc_positions(dem: &Dem, x: f64, y: f64, radius: f64) -> (u64, u64) {
 /// without nodata need no work at all, blocks wholly inside the disc give their count of
 /// nodata cells, and only blocks that hold nodata and are cut by the circle are split.
 /// A disc that lies on the grid and meets no nodata has coverage exactly 1 without
-/// counting its cells.
+/// counting its cells. (On a geographic grid the counts of a disc reaching past the grid
+/// follow the rows' chords, a close estimate.)
 pub fn coverage_with_pyramid(dem: &Dem, pyramid: &Pyramid, x: f64, y: f64, radius: f64) -> f64 {
-    let nodata = nodata_in_disc(dem, pyramid, x, y, radius);
-    let on_grid_entirely = x - radius >= dem.x_left - 0.5 * dem.dx
-        && x + radius <= dem.x_right() + 0.5 * dem.dx
-        && y - radius >= dem.y_bottom() - 0.5 * dem.dy
-        && y + radius <= dem.y_top + 0.5 * dem.dy;
+    match dem.kind {
+        GridKind::Projected => {
+            coverage_in(dem, pyramid, &ProjectedFrame { x0: x, y0: y }, x, radius)
+        }
+        GridKind::Geographic(ell) => {
+            coverage_in(dem, pyramid, &GeographicFrame::new(x, y, ell), x, radius)
+        }
+    }
+}
+
+fn coverage_in<F: Frame>(dem: &Dem, pyramid: &Pyramid, frame: &F, x: f64, radius: f64) -> f64 {
+    let nodata = nodata_in_disc(dem, pyramid, frame, radius);
+    let (bx0, bx1, by0, by1) = region::disc_bbox(frame, radius);
+    let on_grid_entirely = bx0 >= dem.x_left - 0.5 * dem.dx
+        && bx1 <= dem.x_right() + 0.5 * dem.dx
+        && by0 >= dem.y_bottom() - 0.5 * dem.dy
+        && by1 <= dem.y_top + 0.5 * dem.dy;
     if nodata == 0 && on_grid_entirely {
         return 1.0;
     }
-    let (total, on_grid) = disc_positions(dem, x, y, radius);
+    let (total, on_grid) = disc_positions(dem, frame, x, radius);
     DiscCount {
-        valid: on_grid - nodata,
+        valid: on_grid.saturating_sub(nodata),
         nodata,
-        outside: total - on_grid,
+        outside: total.saturating_sub(on_grid),
     }
     .coverage()
 }
 
 /// Nodata cells of the grid whose centres lie inside the disc.
-fn nodata_in_disc(dem: &Dem, pyramid: &Pyramid, x: f64, y: f64, radius: f64) -> u64 {
-    // Cells with data, by a walk over the pyramid.
+fn nodata_in_disc<F: Frame>(dem: &Dem, pyramid: &Pyramid, frame: &F, radius: f64) -> u64 {
     let mut top = 0u32;
     while (1usize << top) < dem.cols.max(dem.rows) {
         top += 1;
@@ -263,50 +282,25 @@ fn nodata_in_disc(dem: &Dem, pyramid: &Pyramid, x: f64, y: f64, radius: f64) -> 
         if c0 >= dem.cols || r0 >= dem.rows {
             continue;
         }
+        if pyramid.missing(dem, level, bcol, brow) == 0 {
+            // No nodata in this block: nothing to count, whether the circle cuts it or not.
+            continue;
+        }
         let (c1, r1) = ((c0 + size).min(dem.cols), (r0 + size).min(dem.rows));
-        let e_lo = dem.x_left + c0 as f64 * dem.dx - x;
-        let e_hi = dem.x_left + c1 as f64 * dem.dx - x;
-        let n_hi = dem.y_top - r0 as f64 * dem.dy - y;
-        let n_lo = dem.y_top - r1 as f64 * dem.dy - y;
-        let near_e = if e_lo > 0.0 {
-            e_lo
-        } else if e_hi < 0.0 {
-            -e_hi
-        } else {
-            0.0
-        };
-        let near_n = if n_lo > 0.0 {
-            n_lo
-        } else if n_hi < 0.0 {
-            -n_hi
-        } else {
-            0.0
-        };
-        if near_e * near_e + near_n * near_n >= r2 {
+        let rect = region::block_rect(dem, frame, c0, c1, r0, r1);
+        if rect.near2() >= r2 {
             continue;
         }
         if level == 0 {
-            let e = 0.5 * (e_lo + e_hi);
-            let n = 0.5 * (n_lo + n_hi);
-            if e * e + n * n < r2 && dem.height(c0, r0).is_none() {
+            let (e, n) = frame.local(dem.col_center_x(c0), dem.row_center_y(r0));
+            if e * e + n * n < r2 {
                 nodata += 1;
             }
             continue;
         }
-        let far_e = e_lo.abs().max(e_hi.abs()) - 0.5 * dem.dx;
-        let far_n = n_lo.abs().max(n_hi.abs()) - 0.5 * dem.dy;
-        let with_data = match pyramid.level(level) {
-            Some(l) => l.blocks[brow * l.cols + bcol].n as u64,
-            None => crate::dem::pyramid::block_from_dem(dem, level, bcol, brow).n as u64,
-        };
-        let cells = ((c1 - c0) * (r1 - r0)) as u64;
-        if with_data == cells {
-            // No nodata in this block: nothing to subtract, whether the circle cuts it or not.
-            continue;
-        }
-        // Block centres lie inside the rectangle shrunk by half a cell.
-        if far_e * far_e + far_n * far_n < r2 {
-            nodata += cells - with_data;
+        let (cw, ch) = frame.cell_size(dem.col_center_x(c0), dem.row_center_y(r0), dem.dx, dem.dy);
+        if rect.far_centre2(0.5 * cw, 0.5 * ch) < r2 {
+            nodata += pyramid.missing(dem, level, bcol, brow) as u64;
         } else {
             for (dc, dr) in [(0, 0), (1, 0), (0, 1), (1, 1)] {
                 stack.push((level - 1, 2 * bcol + dc, 2 * brow + dr));
@@ -384,14 +378,21 @@ impl<'a> Engine<'a> {
         )
     }
 
-    /// Computes the correction at one point.
+    /// Computes the correction at one point (grid coordinates of the DEM's CRS).
     pub fn compute(&self, p: Point) -> StationResult {
+        match self.dem.kind {
+            GridKind::Projected => self.compute_in(&ProjectedFrame { x0: p.x, y0: p.y }, p),
+            GridKind::Geographic(ell) => self.compute_in(&GeographicFrame::new(p.x, p.y, ell), p),
+        }
+    }
+
+    fn compute_in<F: Frame>(&self, frame: &F, p: Point) -> StationResult {
         let radius = self.config.outer_radius_m;
-        let coverage = coverage_with_pyramid(self.dem, &self.pyramid, p.x, p.y, radius);
+        let coverage = coverage_in(self.dem, &self.pyramid, frame, p.x, radius);
         let mut parts = Parts::new(self.plan.rings.len());
         match self.config.method {
-            Method::Exact => exact::exact_parts(self, p, &mut parts),
-            Method::Zoned => self.zoned_parts(p, &mut parts),
+            Method::Exact => exact::exact_parts(self, frame, p, &mut parts),
+            Method::Zoned => self.zoned_parts(frame, p, &mut parts),
         }
         StationResult {
             dem_elev_m: self.dem.bilinear(p.x, p.y),
@@ -404,36 +405,36 @@ impl<'a> Engine<'a> {
         }
     }
 
-    fn zoned_parts(&self, p: Point, parts: &mut Parts) {
+    fn zoned_parts<F: Frame>(&self, frame: &F, p: Point, parts: &mut Parts) {
         let pyramid = &self.pyramid;
         let curvature = self.config.convention.curvature();
+        let outer = self.config.outer_radius_m;
         let inner_box = match self.plan.inner {
             InnerZone::Cells { half_width } => {
                 let cells = CellBox::around(self.dem, p.x, p.y, half_width);
+                let evaluations = &mut parts.inner_elements;
                 parts.inner += match self.config.inner_model {
-                    InnerModel::Surface => inner::surface_square(
-                        self.dem,
-                        p,
-                        &cells,
-                        curvature,
-                        &mut parts.inner_elements,
-                    ),
+                    InnerModel::Surface => {
+                        inner::surface_square(self.dem, frame, p, &cells, curvature, evaluations)
+                    }
                     InnerModel::Prisms => inner::prisms_in_box(
                         self.dem,
+                        frame,
                         p,
                         &cells,
                         curvature,
-                        self.config.outer_radius_m,
-                        &mut parts.inner_elements,
+                        outer,
+                        evaluations,
                     ),
                 };
-                parts.area_m2 += inner::box_area(self.dem, p, &cells, self.config.outer_radius_m);
+                parts.area_m2 += inner::box_area(self.dem, frame, p, &cells, outer);
                 Some(cells)
             }
             InnerZone::Disc { radius_m } => {
                 if self.config.inner_model == InnerModel::Surface {
                     parts.inner += inner::surface_disc(
                         self.dem,
+                        frame,
                         p,
                         radius_m,
                         curvature,
@@ -444,13 +445,13 @@ impl<'a> Engine<'a> {
                 None
             }
         };
-        let quad_outer = self.plan.quadtree_outer_m().min(self.config.outer_radius_m);
+        let quad_outer = self.plan.quadtree_outer_m().min(outer);
         if quad_outer > 0.0 {
             blocks::walk(
-                self.dem, pyramid, &self.plan, p, curvature, quad_outer, inner_box, parts,
+                self.dem, pyramid, &self.plan, frame, p, curvature, quad_outer, inner_box, parts,
             );
         }
-        sectors::sector_rings(self.dem, pyramid, &self.plan, p, curvature, parts);
+        sectors::sector_rings(self.dem, pyramid, &self.plan, frame, p, curvature, parts);
     }
 
     /// Computes every point in parallel (rayon), results in input order; `tick` is

@@ -18,6 +18,7 @@
 //! the roughness that a mean height loses (Hammer's mean-height compartments are biased
 //! low in rough ground for this reason) and for a height trend along the radius.
 
+use super::frame::Frame;
 use super::{Parts, Point};
 use crate::dem::pyramid::{block_from_dem, Pyramid};
 use crate::dem::Dem;
@@ -31,10 +32,11 @@ use std::f64::consts::PI;
 pub const SAMPLES_PER_WIDTH: f64 = 4.0;
 
 /// Adds every sector ring of the plan.
-pub fn sector_rings(
+pub fn sector_rings<F: Frame>(
     dem: &Dem,
     pyramid: &Pyramid,
     plan: &ZonePlan,
+    frame: &F,
     p: Point,
     curvature: f64,
     parts: &mut Parts,
@@ -44,6 +46,7 @@ pub fn sector_rings(
             let (kernel, area) = ring_of_sectors(
                 dem,
                 pyramid,
+                frame,
                 p,
                 curvature,
                 ring.inner_m,
@@ -60,9 +63,10 @@ pub fn sector_rings(
 /// Kernel sum (m) of one ring of `n` compartments from `r1` to `r2`, and the area with
 /// data it covered (m^2).
 #[allow(clippy::too_many_arguments)]
-pub fn ring_of_sectors(
+pub fn ring_of_sectors<F: Frame>(
     dem: &Dem,
     pyramid: &Pyramid,
+    frame: &F,
     p: Point,
     curvature: f64,
     r1: f64,
@@ -72,7 +76,8 @@ pub fn ring_of_sectors(
     let theta = 2.0 * PI / n as f64;
     let width = r2 - r1;
     let arc = theta * 0.5 * (r1 + r2);
-    let cell = dem.dx.max(dem.dy);
+    let (cell_e, cell_n) = frame.cell_size(p.x, p.y, dem.dx, dem.dy);
+    let cell = cell_e.max(cell_n);
     let target = width.min(arc) / SAMPLES_PER_WIDTH;
     let mut level = 0u32;
     while level < pyramid.top_level() && cell * (1u64 << (level + 1)) as f64 <= target {
@@ -103,8 +108,7 @@ pub fn ring_of_sectors(
             let phi = (j as f64 + (kt as f64 + 0.5) / m_t as f64) * theta;
             let (sin, cos) = phi.sin_cos();
             for &r in &rho {
-                let x = p.x + r * cos;
-                let y = p.y + r * sin;
+                let (x, y) = frame.grid(r * cos, r * sin);
                 let (h, var, weight) = if level == 0 {
                     match dem.bilinear(x, y) {
                         Some(h) => (h, 0.0, 1.0),
@@ -127,7 +131,8 @@ pub fn ring_of_sectors(
                     if b.n == 0.0 {
                         continue;
                     }
-                    (b.h as f64, b.hh as f64, b.n as f64 / (size * size) as f64)
+                    let full = (size * size) as f64 * dem.area_factor_y(y);
+                    (b.h as f64, b.hh as f64, b.n as f64 / full)
                 };
                 w += weight;
                 sh += weight * h;
