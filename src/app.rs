@@ -11,7 +11,7 @@ use crate::dem::read::read_dem;
 use crate::dem::Dem;
 use crate::engine::{Convention, Engine, EngineConfig, InnerModel, Method, Point, StationResult};
 use crate::output::{check_target, fixed, write_table, Table, Target};
-use crate::stations::{read_stations, ColumnChoice, StationTable};
+use crate::stations::StationTable;
 use crate::units::{format_length, parse_length_m, to_mgal};
 use crate::zones::{AutoSettings, RingMethod, ZoneGroup, ZonePlan};
 use anyhow::{bail, Context};
@@ -127,36 +127,31 @@ impl Settings {
 
 /// The loaded inputs of a run.
 pub struct Inputs {
+    /// The finest DEM (the only one unless several were given); the stations' x, y are
+    /// in its CRS.
     pub dem: Dem,
     pub stations: StationTable,
+    /// The coarser DEMs, finest first, with the stations' positions in their CRS.
+    pub layers: Vec<crate::nested::Layer>,
+    /// Things the user should know about how the inputs were taken (printed unless quiet).
+    pub notes: Vec<String>,
+    /// How much of each DEM file was read.
+    pub reads: Vec<crate::nested::ReadReport>,
 }
 
-/// Reads the DEM and the station file.
+/// Reads the DEM (one, whole) and the station file, for the commands that take one DEM.
 pub fn load_inputs(input: &InputArgs) -> anyhow::Result<Inputs> {
     if input.dem.len() > 1 {
         bail!(
-            "{} DEMs were given; nested DEMs are not supported yet: give one --dem",
+            "{} DEMs were given; this command takes one --dem (several DEMs work with correct and plan)",
             input.dem.len()
         );
     }
-    let dem = read_dem(&input.dem[0])?;
-    let columns = ColumnChoice {
-        station: input.station_col.clone(),
-        x: input.x_col.clone(),
-        y: input.y_col.clone(),
-        elev: input.elev_col.clone(),
-    };
-    let stations = read_stations(
-        &input.stations,
-        &columns,
-        input.stations_crs.as_deref(),
-        &dem.crs_wkt,
-    )?;
-    Ok(Inputs { dem, stations })
+    crate::nested::load(input, None)
 }
 
 /// Lists up to eight items and how many more there are.
-fn list_some(items: &[String]) -> String {
+pub fn list_some(items: &[String]) -> String {
     let shown: Vec<&str> = items.iter().take(8).map(String::as_str).collect();
     let mut s = shown.join("; ");
     if items.len() > 8 {
@@ -416,17 +411,40 @@ fn correct(args: &CorrectArgs) -> anyhow::Result<()> {
     let settings = Settings::from_args(&args.physics)?;
     let reduction = ReductionSettings::from_args(&args.reduction, settings.density_kg_m3)?;
     let target = check_target(&args.out)?;
-    let inputs = load_inputs(&args.input)?;
+    let inputs = crate::nested::load(&args.input, Some(settings.engine.outer_radius_m))?;
+    if !args.run.quiet {
+        for note in &inputs.notes {
+            eprintln!("ringsum: note: {note}");
+        }
+    }
     let plan = settings.plan(inputs.dem.cell_size_m())?;
-    let engine = Engine::new(&inputs.dem, settings.engine, plan.clone());
-    preflight(&inputs, &settings, &engine)?;
-    let chain = crate::anomaly::prepare(&inputs, &settings, &reduction)?;
-    let started = Instant::now();
-    let results = compute_stations(&inputs, &engine, &args.run)?;
-    let water = chain.water_mgal(&inputs, &settings, &plan, &args.run)?;
-    let mut table =
-        correction_table_with(&inputs, &plan, &results, &chain.densities, water.as_deref())?;
-    chain.add_columns(&mut table, &inputs.stations)?;
+    let started;
+    let table = if inputs.layers.is_empty() {
+        let engine = Engine::new(&inputs.dem, settings.engine, plan.clone());
+        preflight(&inputs, &settings, &engine)?;
+        let chain = crate::anomaly::prepare(&inputs, &settings, &reduction)?;
+        started = Instant::now();
+        let results = compute_stations(&inputs, &engine, &args.run)?;
+        let water = chain.water_mgal(&inputs, &settings, &plan, &args.run)?;
+        let mut table =
+            correction_table_with(&inputs, &plan, &results, &chain.densities, water.as_deref())?;
+        chain.add_columns(&mut table, &inputs.stations)?;
+        table
+    } else {
+        if reduction.water.is_some() {
+            bail!("--water-density works with one DEM for now; give the DEM that holds the water bodies alone");
+        }
+        let engine = crate::nested::engines(&inputs, &settings, &plan);
+        crate::nested::preflight(&inputs, &settings, &engine)?;
+        let chain = crate::anomaly::prepare(&inputs, &settings, &reduction)?;
+        started = Instant::now();
+        let layered = crate::nested::compute(&inputs, &engine, args.run.quiet, args.run.threads)?;
+        let results: Vec<StationResult> = layered.iter().map(|r| r.combined.clone()).collect();
+        let mut table = correction_table_with(&inputs, &plan, &results, &chain.densities, None)?;
+        crate::nested::add_columns(&mut table, &plan, &layered, settings.engine.outer_radius_m)?;
+        chain.add_columns(&mut table, &inputs.stations)?;
+        table
+    };
     write_table(&target, &table)?;
     if !args.run.quiet {
         summarise(&table, started.elapsed().as_secs_f64(), &target);

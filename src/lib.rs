@@ -23,6 +23,7 @@ pub mod dem;
 pub mod engine;
 pub mod kernels;
 pub mod map;
+pub mod nested;
 pub mod output;
 pub mod plot;
 pub mod progress;

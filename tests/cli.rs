@@ -420,7 +420,7 @@ fn stations_in_metres_on_a_geographic_dem_are_refused() {
         cmd,
         &[
             "stations.csv",
-            "outside the data of",
+            "none of the DEMs",
             "geographic.tif",
             "--stations-crs",
         ],

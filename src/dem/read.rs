@@ -54,131 +54,209 @@ fn vertical_unit_factor(unit: &str) -> Option<f64> {
     }
 }
 
-/// Reads band 1 of a raster GDAL can open into a [`Dem`].
-///
-/// Nodata values (and NaN) become `NaN`; band scale and offset are applied, and heights
-/// in feet are converted to metres. The DEM must be north-up, unrotated and in a
-/// projected CRS whose unit is the metre.
-pub fn read_dem(path: &Path) -> Result<Dem, DemError> {
-    let p = path.display().to_string();
-    if !path.exists() {
-        return Err(DemError::NotFound { path: p });
-    }
-    // The whole grid is read once; GDAL's block cache would only hold a second copy.
-    let _ = gdal::config::set_config_option("GDAL_CACHEMAX", "64");
-    let ds = Dataset::open(path).map_err(|e| DemError::Unreadable {
-        path: p.clone(),
-        detail: e.to_string(),
-    })?;
-    let bands = ds.raster_count();
-    if bands != 1 {
-        return Err(DemError::Bands { path: p, bands });
-    }
-    let gt = ds
-        .geo_transform()
-        .map_err(|_| DemError::NoGeotransform { path: p.clone() })?;
-    if gt == [0.0, 1.0, 0.0, 0.0, 0.0, 1.0] {
-        return Err(DemError::NoGeotransform { path: p });
-    }
-    if gt[2] != 0.0 || gt[4] != 0.0 {
-        return Err(DemError::Rotated {
-            path: p,
-            rot1: gt[2],
-            rot2: gt[4],
-        });
-    }
-    if gt[1] <= 0.0 || gt[5] >= 0.0 {
-        return Err(DemError::Flipped { path: p });
-    }
-    let srs = ds
-        .spatial_ref()
-        .map_err(|_| DemError::NoCrs { path: p.clone() })?;
-    let kind = if srs.is_geographic() {
-        let degree = std::f64::consts::PI / 180.0;
-        if (srs.angular_units() - degree).abs() > 1e-12 {
-            return Err(DemError::NotDegrees {
-                path: p,
-                unit: srs.angular_units_name().unwrap_or_else(|| "unknown".into()),
-            });
+/// A DEM file opened and checked, before its heights are read.
+pub struct DemHeader {
+    path: String,
+    ds: Dataset,
+    /// Columns and rows of the whole file.
+    pub cols: usize,
+    pub rows: usize,
+    /// GDAL geotransform of the whole file (north-up, unrotated).
+    pub geotransform: [f64; 6],
+    pub kind: GridKind,
+    pub crs_wkt: String,
+    /// Name of the vertical CRS when the file declares one (a compound CRS).
+    pub vertical_crs: Option<String>,
+    unit_factor: f64,
+}
+
+impl DemHeader {
+    /// Opens `path` and checks everything but the heights: one band, a north-up
+    /// geotransform, a projected CRS in metres or a geographic one in degrees, a known
+    /// vertical unit.
+    pub fn open(path: &Path) -> Result<DemHeader, DemError> {
+        let p = path.display().to_string();
+        if !path.exists() {
+            return Err(DemError::NotFound { path: p });
         }
-        let a = srs
-            .semi_major()
-            .map_err(|_| DemError::NoCrs { path: p.clone() })?;
-        let b = srs
-            .semi_minor()
-            .map_err(|_| DemError::NoCrs { path: p.clone() })?;
-        if gt[0] < -360.0
-            || gt[0] + gt[1] * ds.raster_size().0 as f64 > 360.0
-            || gt[3] > 90.0 + 1e-9
-        {
-            return Err(DemError::GeographicRange { path: p });
-        }
-        GridKind::Geographic(Ellipsoid { a, f: (a - b) / a })
-    } else if srs.is_projected() {
-        let factor = srs.linear_units();
-        if (factor - 1.0).abs() > 1e-9 {
-            return Err(DemError::NotMetres {
-                path: p,
-                unit: srs.linear_units_name().unwrap_or_else(|| "unknown".into()),
-                factor,
-            });
-        }
-        GridKind::Projected
-    } else {
-        return Err(DemError::NoCrs { path: p });
-    };
-    let crs_wkt = srs.to_wkt().unwrap_or_default();
-    let band = ds.rasterband(1).map_err(|e| DemError::Read {
-        path: p.clone(),
-        detail: e.to_string(),
-    })?;
-    let unit = band.unit();
-    let unit_factor = vertical_unit_factor(&unit).ok_or_else(|| DemError::VerticalUnit {
-        path: p.clone(),
-        unit,
-    })?;
-    let (cols, rows) = ds.raster_size();
-    // Read straight into f32 (the DEM's own precision for almost every DEM) so that no
-    // second, wider copy of the grid is ever held.
-    let buffer = band
-        .read_as::<f32>((0, 0), (cols, rows), (cols, rows), None)
-        .map_err(|e| DemError::Read {
+        // The grid is read once; GDAL's block cache would only hold a second copy.
+        let _ = gdal::config::set_config_option("GDAL_CACHEMAX", "64");
+        let ds = Dataset::open(path).map_err(|e| DemError::Unreadable {
             path: p.clone(),
             detail: e.to_string(),
         })?;
-    let nodata = band.no_data_value();
-    let scale = band.scale().unwrap_or(1.0);
-    let offset = band.offset().unwrap_or(0.0);
-    let (_, mut heights) = buffer.into_shape_and_vec();
-    let nodata_f32 = nodata.map(|nd| nd as f32);
-    let identity = scale == 1.0 && offset == 0.0 && unit_factor == 1.0;
-    for h in heights.iter_mut() {
-        let is_nodata = match nodata_f32 {
-            Some(nd) => *h == nd || (nd.is_nan() && h.is_nan()),
-            None => false,
+        let bands = ds.raster_count();
+        if bands != 1 {
+            return Err(DemError::Bands { path: p, bands });
+        }
+        let gt = ds
+            .geo_transform()
+            .map_err(|_| DemError::NoGeotransform { path: p.clone() })?;
+        if gt == [0.0, 1.0, 0.0, 0.0, 0.0, 1.0] {
+            return Err(DemError::NoGeotransform { path: p });
+        }
+        if gt[2] != 0.0 || gt[4] != 0.0 {
+            return Err(DemError::Rotated {
+                path: p,
+                rot1: gt[2],
+                rot2: gt[4],
+            });
+        }
+        if gt[1] <= 0.0 || gt[5] >= 0.0 {
+            return Err(DemError::Flipped { path: p });
+        }
+        let (cols, rows) = ds.raster_size();
+        let srs = ds
+            .spatial_ref()
+            .map_err(|_| DemError::NoCrs { path: p.clone() })?;
+        let kind = if srs.is_geographic() {
+            let degree = std::f64::consts::PI / 180.0;
+            if (srs.angular_units() - degree).abs() > 1e-12 {
+                return Err(DemError::NotDegrees {
+                    path: p,
+                    unit: srs.angular_units_name().unwrap_or_else(|| "unknown".into()),
+                });
+            }
+            let a = srs
+                .semi_major()
+                .map_err(|_| DemError::NoCrs { path: p.clone() })?;
+            let b = srs
+                .semi_minor()
+                .map_err(|_| DemError::NoCrs { path: p.clone() })?;
+            if gt[0] < -360.0 || gt[0] + gt[1] * cols as f64 > 360.0 || gt[3] > 90.0 + 1e-9 {
+                return Err(DemError::GeographicRange { path: p });
+            }
+            GridKind::Geographic(Ellipsoid { a, f: (a - b) / a })
+        } else if srs.is_projected() {
+            let factor = srs.linear_units();
+            if (factor - 1.0).abs() > 1e-9 {
+                return Err(DemError::NotMetres {
+                    path: p,
+                    unit: srs.linear_units_name().unwrap_or_else(|| "unknown".into()),
+                    factor,
+                });
+            }
+            GridKind::Projected
+        } else {
+            return Err(DemError::NoCrs { path: p });
         };
-        if is_nodata || !h.is_finite() {
-            *h = f32::NAN;
-        } else if !identity {
-            *h = ((*h as f64 * scale + offset) * unit_factor) as f32;
+        let vertical_crs = if srs.is_compound() {
+            srs.get_attr_value("COMPD_CS|VERT_CS", 0).ok().flatten()
+        } else {
+            None
+        };
+        let crs_wkt = srs.to_wkt().unwrap_or_default();
+        let unit = ds
+            .rasterband(1)
+            .map_err(|e| DemError::Read {
+                path: p.clone(),
+                detail: e.to_string(),
+            })?
+            .unit();
+        let unit_factor = vertical_unit_factor(&unit).ok_or_else(|| DemError::VerticalUnit {
+            path: p.clone(),
+            unit,
+        })?;
+        Ok(DemHeader {
+            path: p,
+            ds,
+            cols,
+            rows,
+            geotransform: gt,
+            kind,
+            crs_wkt,
+            vertical_crs,
+            unit_factor,
+        })
+    }
+
+    /// Cell size in metres (the larger side; at the middle latitude of a geographic grid).
+    pub fn cell_size_m(&self) -> f64 {
+        self.empty_dem(0, 0, 1, 1).cell_size_m()
+    }
+
+    fn empty_dem(&self, c0: usize, r0: usize, cols: usize, rows: usize) -> Dem {
+        let gt = self.geotransform;
+        Dem {
+            source: self.path.clone(),
+            cols,
+            rows,
+            x_left: gt[0] + c0 as f64 * gt[1],
+            y_top: gt[3] + r0 as f64 * gt[5],
+            dx: gt[1],
+            dy: -gt[5],
+            heights: Vec::new(),
+            crs_wkt: self.crs_wkt.clone(),
+            kind: self.kind,
+            weights: None,
         }
     }
-    if heights.iter().all(|h| h.is_nan()) {
-        return Err(DemError::AllNodata { path: p });
+
+    /// The cell window `(c0, r0, cols, rows)` covering grid coordinates
+    /// `[x_lo, x_hi] x [y_lo, y_hi]` (clamped to the file; `None` if they miss it).
+    pub fn window(
+        &self,
+        x_lo: f64,
+        x_hi: f64,
+        y_lo: f64,
+        y_hi: f64,
+    ) -> Option<(usize, usize, usize, usize)> {
+        let gt = self.geotransform;
+        let c0 = ((x_lo - gt[0]) / gt[1]).floor().max(0.0) as usize;
+        let c1 = (((x_hi - gt[0]) / gt[1]).ceil().max(0.0) as usize).min(self.cols);
+        let r0 = ((y_hi - gt[3]) / gt[5]).floor().max(0.0) as usize;
+        let r1 = (((y_lo - gt[3]) / gt[5]).ceil().max(0.0) as usize).min(self.rows);
+        (c1 > c0 && r1 > r0).then_some((c0, r0, c1 - c0, r1 - r0))
     }
-    Ok(Dem {
-        source: p,
-        cols,
-        rows,
-        x_left: gt[0],
-        y_top: gt[3],
-        dx: gt[1],
-        dy: -gt[5],
-        heights,
-        crs_wkt,
-        kind,
-        weights: None,
-    })
+
+    /// Reads the heights of the whole file, or of a cell window `(c0, r0, cols, rows)`.
+    ///
+    /// Nodata values (and NaN) become `NaN`; band scale and offset are applied, and
+    /// heights in feet are converted to metres.
+    pub fn read(&self, window: Option<(usize, usize, usize, usize)>) -> Result<Dem, DemError> {
+        let p = &self.path;
+        let (c0, r0, cols, rows) = window.unwrap_or((0, 0, self.cols, self.rows));
+        let band = self.ds.rasterband(1).map_err(|e| DemError::Read {
+            path: p.clone(),
+            detail: e.to_string(),
+        })?;
+        // Read straight into f32 (the DEM's own precision for almost every DEM) so that no
+        // second, wider copy of the grid is ever held.
+        let buffer = band
+            .read_as::<f32>((c0 as isize, r0 as isize), (cols, rows), (cols, rows), None)
+            .map_err(|e| DemError::Read {
+                path: p.clone(),
+                detail: e.to_string(),
+            })?;
+        let nodata = band.no_data_value();
+        let scale = band.scale().unwrap_or(1.0);
+        let offset = band.offset().unwrap_or(0.0);
+        let (_, mut heights) = buffer.into_shape_and_vec();
+        let nodata_f32 = nodata.map(|nd| nd as f32);
+        let identity = scale == 1.0 && offset == 0.0 && self.unit_factor == 1.0;
+        for h in heights.iter_mut() {
+            let is_nodata = match nodata_f32 {
+                Some(nd) => *h == nd || (nd.is_nan() && h.is_nan()),
+                None => false,
+            };
+            if is_nodata || !h.is_finite() {
+                *h = f32::NAN;
+            } else if !identity {
+                *h = ((*h as f64 * scale + offset) * self.unit_factor) as f32;
+            }
+        }
+        if heights.iter().all(|h| h.is_nan()) {
+            return Err(DemError::AllNodata { path: p.clone() });
+        }
+        let mut dem = self.empty_dem(c0, r0, cols, rows);
+        dem.heights = heights;
+        Ok(dem)
+    }
+}
+
+/// Reads band 1 of a raster GDAL can open into a [`Dem`] (see [`DemHeader`]).
+pub fn read_dem(path: &Path) -> Result<Dem, DemError> {
+    DemHeader::open(path)?.read(None)
 }
 
 /// Whether two CRS definitions (WKT, EPSG code or PROJ string) describe the same CRS

@@ -16,7 +16,13 @@ use crate::kernels::{prism_kernel, prism_kernel_closed_form};
 use crate::zones::InnerZone;
 
 /// Adds the exact method's parts for point `p` (grid coordinates) in `frame`.
-pub fn exact_parts<F: Frame>(engine: &Engine, frame: &F, p: Point, parts: &mut Parts) {
+pub fn exact_parts<F: Frame>(
+    engine: &Engine,
+    frame: &F,
+    p: Point,
+    parts: &mut Parts,
+    skip_inner: bool,
+) {
     let dem = engine.dem;
     let config = &engine.config;
     let radius = config.outer_radius_m;
@@ -26,8 +32,18 @@ pub fn exact_parts<F: Frame>(engine: &Engine, frame: &F, p: Point, parts: &mut P
         InnerZone::Cells { half_width } => half_width,
         InnerZone::Disc { .. } => 1,
     };
-    let inner_box = CellBox::around(dem, p.x, p.y, half_width);
-    let surface = config.inner_model == InnerModel::Surface;
+    let inner_box = if skip_inner {
+        // No cell is inside an empty box.
+        CellBox {
+            col_lo: 0,
+            col_hi: -1,
+            row_lo: 0,
+            row_hi: -1,
+        }
+    } else {
+        CellBox::around(dem, p.x, p.y, half_width)
+    };
+    let surface = config.inner_model == InnerModel::Surface && !skip_inner;
     if surface {
         parts.inner += inner::surface_square(
             dem,

@@ -17,6 +17,7 @@ pub mod blocks;
 pub mod exact;
 pub mod frame;
 pub mod inner;
+pub mod layers;
 pub mod region;
 pub mod sectors;
 
@@ -94,6 +95,8 @@ pub struct StationResult {
     /// Horizontal area the elements covered, m^2: a check that the zones tile the disc
     /// (no area counted twice or missed).
     pub area_m2: f64,
+    /// The same for each ring of the plan, m^2 (the inner zone's is `area_m2` less these).
+    pub ring_area_m2: Vec<f64>,
 }
 
 impl StationResult {
@@ -380,19 +383,30 @@ impl<'a> Engine<'a> {
 
     /// Computes the correction at one point (grid coordinates of the DEM's CRS).
     pub fn compute(&self, p: Point) -> StationResult {
+        self.compute_with(p, false)
+    }
+
+    /// Computes the correction at one point; with `skip_inner`, without the inner zone
+    /// (for a DEM that does not serve the station in a layered run: its cells there are
+    /// all taken by a finer DEM).
+    pub fn compute_with(&self, p: Point, skip_inner: bool) -> StationResult {
         match self.dem.kind {
-            GridKind::Projected => self.compute_in(&ProjectedFrame { x0: p.x, y0: p.y }, p),
-            GridKind::Geographic(ell) => self.compute_in(&GeographicFrame::new(p.x, p.y, ell), p),
+            GridKind::Projected => {
+                self.compute_in(&ProjectedFrame { x0: p.x, y0: p.y }, p, skip_inner)
+            }
+            GridKind::Geographic(ell) => {
+                self.compute_in(&GeographicFrame::new(p.x, p.y, ell), p, skip_inner)
+            }
         }
     }
 
-    fn compute_in<F: Frame>(&self, frame: &F, p: Point) -> StationResult {
+    fn compute_in<F: Frame>(&self, frame: &F, p: Point, skip_inner: bool) -> StationResult {
         let radius = self.config.outer_radius_m;
         let coverage = coverage_in(self.dem, &self.pyramid, frame, p.x, radius);
         let mut parts = Parts::new(self.plan.rings.len());
         match self.config.method {
-            Method::Exact => exact::exact_parts(self, frame, p, &mut parts),
-            Method::Zoned => self.zoned_parts(frame, p, &mut parts),
+            Method::Exact => exact::exact_parts(self, frame, p, &mut parts, skip_inner),
+            Method::Zoned => self.zoned_parts(frame, p, &mut parts, skip_inner),
         }
         StationResult {
             dem_elev_m: self.dem.bilinear(p.x, p.y),
@@ -402,14 +416,16 @@ impl<'a> Engine<'a> {
             inner_elements: parts.inner_elements,
             ring_elements: parts.ring_elements,
             area_m2: parts.area_m2,
+            ring_area_m2: parts.ring_area_m2,
         }
     }
 
-    fn zoned_parts<F: Frame>(&self, frame: &F, p: Point, parts: &mut Parts) {
+    fn zoned_parts<F: Frame>(&self, frame: &F, p: Point, parts: &mut Parts, skip_inner: bool) {
         let pyramid = &self.pyramid;
         let curvature = self.config.convention.curvature();
         let outer = self.config.outer_radius_m;
         let inner_box = match self.plan.inner {
+            _ if skip_inner => None,
             InnerZone::Cells { half_width } => {
                 let cells = CellBox::around(self.dem, p.x, p.y, half_width);
                 let evaluations = &mut parts.inner_elements;
@@ -476,6 +492,7 @@ pub struct Parts {
     pub inner_elements: u64,
     pub ring_elements: Vec<u64>,
     pub area_m2: f64,
+    pub ring_area_m2: Vec<f64>,
 }
 
 impl Parts {
@@ -486,6 +503,7 @@ impl Parts {
             inner_elements: 0,
             ring_elements: vec![0; rings],
             area_m2: 0.0,
+            ring_area_m2: vec![0.0; rings],
         }
     }
 
@@ -495,6 +513,7 @@ impl Parts {
         self.rings[ring] += kernel;
         self.ring_elements[ring] += 1;
         self.area_m2 += area_m2;
+        self.ring_area_m2[ring] += area_m2;
     }
 }
 

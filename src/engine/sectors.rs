@@ -56,6 +56,7 @@ pub fn sector_rings<F: Frame>(
             parts.rings[i] += kernel;
             parts.ring_elements[i] += compartments as u64;
             parts.area_m2 += area;
+            parts.ring_area_m2[i] += area;
         }
     }
 }
