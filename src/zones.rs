@@ -489,8 +489,7 @@ impl ZonePlan {
         Ok(plan)
     }
 
-    /// Prism and block rings must come before sector rings, and a disc inner zone needs
-    /// sectors right after it.
+    /// Prism and block rings must come before sector rings; ring names are unique.
     fn check_order(&self) -> Result<(), String> {
         let mut seen_sectors = false;
         for (i, ring) in self.rings.iter().enumerate() {
@@ -505,15 +504,6 @@ impl ZonePlan {
                     ))
                 }
                 _ => {}
-            }
-        }
-        if let InnerZone::Disc { .. } = self.inner {
-            if self
-                .rings
-                .iter()
-                .any(|r| !matches!(r.method, RingMethod::Sectors { .. }))
-            {
-                return Err("an inner_radius (disc) inner zone can only be followed by sector rings; use inner_cells with prism or block rings".into());
             }
         }
         let mut names = std::collections::HashSet::new();

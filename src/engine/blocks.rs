@@ -178,6 +178,14 @@ pub const CUT_BLOCK_MAX_RATIO: f64 = 0.1;
 /// Most row bands scanned when a block cut by the zone's edge is reduced to its inside cells.
 const MAX_BANDS: usize = 64;
 
+/// The inner zone the quadtree leaves out: a box of cells, or the cells whose centres
+/// lie within a radius (m) of the station.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Exclusion {
+    Cells(CellBox),
+    Disc(f64),
+}
+
 /// Walks the quadtree over the prism and block rings, out to `outer_m`, adding each
 /// element to the ring holding its centroid.
 #[allow(clippy::too_many_arguments)]
@@ -189,7 +197,7 @@ pub fn walk<F: Frame>(
     p: Point,
     curvature: f64,
     outer_m: f64,
-    inner: Option<CellBox>,
+    inner: Option<Exclusion>,
     parts: &mut Parts,
 ) {
     let mut top = 0;
@@ -223,10 +231,15 @@ pub fn walk<F: Frame>(
         if dmin2 >= outer2 {
             continue;
         }
-        let in_inner =
-            inner.is_some_and(|b| b.overlaps(c0 as i64, c1 as i64, r0 as i64, r1 as i64));
+        let in_inner = match inner {
+            None => false,
+            Some(Exclusion::Cells(b)) => b.overlaps(c0 as i64, c1 as i64, r0 as i64, r1 as i64),
+            Some(Exclusion::Disc(r)) => dmin2 < r * r,
+        };
         if level == 0 {
-            if in_inner {
+            let inside_disc =
+                |e: f64, n: f64| matches!(inner, Some(Exclusion::Disc(r)) if e * e + n * n < r * r);
+            if in_inner && matches!(inner, Some(Exclusion::Cells(_))) {
                 continue;
             }
             let Some(h) = dem.height(c0, r0) else {
@@ -243,7 +256,7 @@ pub fn walk<F: Frame>(
                 frame.local(x, y)
             };
             let s2 = e_c * e_c + n_c * n_c;
-            if s2 >= outer2 {
+            if s2 >= outer2 || inside_disc(e_c, n_c) {
                 continue;
             }
             let (cw, ch) = frame.cell_size(x, y, dem.dx, dem.dy);

@@ -22,17 +22,22 @@ pub fn exact_parts<F: Frame>(
     p: Point,
     parts: &mut Parts,
     skip_inner: bool,
+    inner_zone: InnerZone,
 ) {
     let dem = engine.dem;
     let config = &engine.config;
     let radius = config.outer_radius_m;
     let r2max = radius * radius;
     let curvature = config.convention.curvature();
-    let half_width = match engine.plan.inner {
-        InnerZone::Cells { half_width } => half_width,
-        InnerZone::Disc { .. } => 1,
+    // A disc inner zone (a field inner-zone value) takes the cells whose centres lie in
+    // it; otherwise the inner zone is the cell box (also for the Hammer preset's zone A,
+    // which the exact method, cell by cell, cannot resolve).
+    let (half_width, disc) = match inner_zone {
+        InnerZone::Cells { half_width } => (half_width, None),
+        InnerZone::Disc { radius_m } if engine.plan.inner != inner_zone => (0, Some(radius_m)),
+        InnerZone::Disc { .. } => (1, None),
     };
-    let inner_box = if skip_inner {
+    let inner_box = if skip_inner || disc.is_some() {
         // No cell is inside an empty box.
         CellBox {
             col_lo: 0,
@@ -44,7 +49,13 @@ pub fn exact_parts<F: Frame>(
         CellBox::around(dem, p.x, p.y, half_width)
     };
     let surface = config.inner_model == InnerModel::Surface && !skip_inner;
-    if surface {
+    if let (Some(r), false) = (disc, skip_inner) {
+        if surface {
+            parts.inner +=
+                inner::surface_disc(dem, frame, p, r, curvature, &mut parts.inner_elements);
+            parts.area_m2 += std::f64::consts::PI * r * r;
+        }
+    } else if surface {
         parts.inner += inner::surface_square(
             dem,
             frame,
@@ -128,7 +139,10 @@ pub fn exact_parts<F: Frame>(
             if s2 >= r2max {
                 continue;
             }
-            let in_inner = inner_box.contains(c as i64, r);
+            let in_inner = match disc {
+                Some(rd) => s2 < rd * rd && !skip_inner,
+                None => inner_box.contains(c as i64, r),
+            };
             if in_inner && surface {
                 parts.area_m2 += cell_area * w;
                 continue;

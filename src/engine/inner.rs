@@ -109,6 +109,52 @@ pub fn prisms_in_box<F: Frame>(
     total
 }
 
+/// Flat-topped prisms for the cells whose centres lie within `radius_m` of the station
+/// (the `prisms` inner model with a disc inner zone): kernel sum and area.
+pub fn prisms_in_disc<F: Frame>(
+    dem: &Dem,
+    frame: &F,
+    p: Point,
+    radius_m: f64,
+    curvature: f64,
+    elements: &mut u64,
+) -> (f64, f64) {
+    let col = ((p.x - dem.x_left) / dem.dx).floor() as i64;
+    let row = ((dem.y_top - p.y) / dem.dy).floor() as i64;
+    let (cw, ch) = frame.cell_size(p.x, p.y, dem.dx, dem.dy);
+    let reach_c = (radius_m / cw).ceil() as i64 + 1;
+    let reach_r = (radius_m / ch).ceil() as i64 + 1;
+    let (mut total, mut area) = (0.0, 0.0);
+    for r in (row - reach_r).max(0)..=(row + reach_r).min(dem.rows as i64 - 1) {
+        for c in (col - reach_c).max(0)..=(col + reach_c).min(dem.cols as i64 - 1) {
+            let (cu, ru) = (c as usize, r as usize);
+            let Some(h) = dem.height(cu, ru) else {
+                continue;
+            };
+            let (x, y) = (dem.col_center_x(cu), dem.row_center_y(ru));
+            let (e, n) = frame.local(x, y);
+            let s2 = e * e + n * n;
+            if s2 >= radius_m * radius_m {
+                continue;
+            }
+            let (w_e, w_n) = frame.cell_size(x, y, dem.dx, dem.dy);
+            let d = 0.5 * curvature * s2;
+            let w = dem.weight(cu, ru);
+            total += w * prism_kernel(
+                e - 0.5 * w_e,
+                e + 0.5 * w_e,
+                n - 0.5 * w_n,
+                n + 0.5 * w_n,
+                -d,
+                h - p.elev - d,
+            );
+            area += w * w_e * w_n;
+            *elements += 1;
+        }
+    }
+    (total, area)
+}
+
 /// The station's frame linearised at the station: over the inner zone's few tens of
 /// metres it is exact to well below a millimetre, and cheap to invert.
 #[derive(Debug, Clone, Copy)]

@@ -390,23 +390,40 @@ impl<'a> Engine<'a> {
     /// (for a DEM that does not serve the station in a layered run: its cells there are
     /// all taken by a finer DEM).
     pub fn compute_with(&self, p: Point, skip_inner: bool) -> StationResult {
+        self.compute_full(p, skip_inner, None)
+    }
+
+    /// Computes the correction at one point with the inner zone `inner` instead of the
+    /// plan's (a disc for a field inner-zone value, say).
+    pub fn compute_with_inner(&self, p: Point, inner: InnerZone) -> StationResult {
+        self.compute_full(p, false, Some(inner))
+    }
+
+    fn compute_full(&self, p: Point, skip_inner: bool, inner: Option<InnerZone>) -> StationResult {
         match self.dem.kind {
             GridKind::Projected => {
-                self.compute_in(&ProjectedFrame { x0: p.x, y0: p.y }, p, skip_inner)
+                self.compute_in(&ProjectedFrame { x0: p.x, y0: p.y }, p, skip_inner, inner)
             }
             GridKind::Geographic(ell) => {
-                self.compute_in(&GeographicFrame::new(p.x, p.y, ell), p, skip_inner)
+                self.compute_in(&GeographicFrame::new(p.x, p.y, ell), p, skip_inner, inner)
             }
         }
     }
 
-    fn compute_in<F: Frame>(&self, frame: &F, p: Point, skip_inner: bool) -> StationResult {
+    fn compute_in<F: Frame>(
+        &self,
+        frame: &F,
+        p: Point,
+        skip_inner: bool,
+        inner_zone: Option<InnerZone>,
+    ) -> StationResult {
+        let inner_zone = inner_zone.unwrap_or(self.plan.inner);
         let radius = self.config.outer_radius_m;
         let coverage = coverage_in(self.dem, &self.pyramid, frame, p.x, radius);
         let mut parts = Parts::new(self.plan.rings.len());
         match self.config.method {
-            Method::Exact => exact::exact_parts(self, frame, p, &mut parts, skip_inner),
-            Method::Zoned => self.zoned_parts(frame, p, &mut parts, skip_inner),
+            Method::Exact => exact::exact_parts(self, frame, p, &mut parts, skip_inner, inner_zone),
+            Method::Zoned => self.zoned_parts(frame, p, &mut parts, skip_inner, inner_zone),
         }
         StationResult {
             dem_elev_m: self.dem.bilinear(p.x, p.y),
@@ -420,11 +437,18 @@ impl<'a> Engine<'a> {
         }
     }
 
-    fn zoned_parts<F: Frame>(&self, frame: &F, p: Point, parts: &mut Parts, skip_inner: bool) {
+    fn zoned_parts<F: Frame>(
+        &self,
+        frame: &F,
+        p: Point,
+        parts: &mut Parts,
+        skip_inner: bool,
+        inner_zone: InnerZone,
+    ) {
         let pyramid = &self.pyramid;
         let curvature = self.config.convention.curvature();
         let outer = self.config.outer_radius_m;
-        let inner_box = match self.plan.inner {
+        let inner_box = match inner_zone {
             _ if skip_inner => None,
             InnerZone::Cells { half_width } => {
                 let cells = CellBox::around(self.dem, p.x, p.y, half_width);
@@ -444,21 +468,35 @@ impl<'a> Engine<'a> {
                     ),
                 };
                 parts.area_m2 += inner::box_area(self.dem, frame, p, &cells, outer);
-                Some(cells)
+                Some(blocks::Exclusion::Cells(cells))
             }
             InnerZone::Disc { radius_m } => {
-                if self.config.inner_model == InnerModel::Surface {
-                    parts.inner += inner::surface_disc(
-                        self.dem,
-                        frame,
-                        p,
-                        radius_m,
-                        curvature,
-                        &mut parts.inner_elements,
-                    );
+                match self.config.inner_model {
+                    InnerModel::Surface => {
+                        parts.inner += inner::surface_disc(
+                            self.dem,
+                            frame,
+                            p,
+                            radius_m,
+                            curvature,
+                            &mut parts.inner_elements,
+                        );
+                        parts.area_m2 += std::f64::consts::PI * radius_m * radius_m;
+                    }
+                    InnerModel::Prisms => {
+                        let (k, area) = inner::prisms_in_disc(
+                            self.dem,
+                            frame,
+                            p,
+                            radius_m.min(outer),
+                            curvature,
+                            &mut parts.inner_elements,
+                        );
+                        parts.inner += k;
+                        parts.area_m2 += area;
+                    }
                 }
-                parts.area_m2 += std::f64::consts::PI * radius_m * radius_m;
-                None
+                Some(blocks::Exclusion::Disc(radius_m))
             }
         };
         let quad_outer = self.plan.quadtree_outer_m().min(outer);
