@@ -273,6 +273,31 @@ pub fn compute_stations(
     Ok(results)
 }
 
+/// As [`compute_stations`], with an inner zone of its own for some stations.
+pub fn compute_stations_inner(
+    inputs: &Inputs,
+    engine: &Engine,
+    zones: &[Option<crate::zones::InnerZone>],
+    run: &RunArgs,
+) -> anyhow::Result<Vec<StationResult>> {
+    let points: Vec<Point> = inputs
+        .stations
+        .stations
+        .iter()
+        .map(|s| Point {
+            x: s.x,
+            y: s.y,
+            elev: s.elev,
+        })
+        .collect();
+    let bar = crate::progress::station_bar(points.len() as u64, run.quiet, "stations");
+    let results = with_threads(run.threads, || {
+        engine.compute_all_inner(&points, zones, &|| bar.inc(1))
+    })?;
+    bar.finish_and_clear();
+    Ok(results)
+}
+
 /// Rounds `parts` to `decimals` so that the rounded parts add up to the rounded total
 /// exactly: the rounding difference (at most a few units of the last decimal) goes to
 /// the largest part.
@@ -418,16 +443,32 @@ fn correct(args: &CorrectArgs) -> anyhow::Result<()> {
         }
     }
     let plan = settings.plan(inputs.dem.cell_size_m())?;
+    let field = crate::field_inner::FieldInner::prepare(
+        &inputs.stations,
+        &settings,
+        args.physics.field_inner_col.as_deref(),
+        args.physics.field_inner_radius.as_deref(),
+    )?;
+    let zones = match &field {
+        Some(f) => f.zones(),
+        None => vec![None; inputs.stations.stations.len()],
+    };
     let started;
     let table = if inputs.layers.is_empty() {
         let engine = Engine::new(&inputs.dem, settings.engine, plan.clone());
         preflight(&inputs, &settings, &engine)?;
         let chain = crate::anomaly::prepare(&inputs, &settings, &reduction)?;
         started = Instant::now();
-        let results = compute_stations(&inputs, &engine, &args.run)?;
+        let mut results = compute_stations_inner(&inputs, &engine, &zones, &args.run)?;
+        let dem_inner = field
+            .as_ref()
+            .map(|f| f.apply(&mut results, &chain.densities));
         let water = chain.water_mgal(&inputs, &settings, &plan, &args.run)?;
         let mut table =
             correction_table_with(&inputs, &plan, &results, &chain.densities, water.as_deref())?;
+        if let (Some(f), Some(d)) = (&field, &dem_inner) {
+            f.add_columns(&mut table, d)?;
+        }
         chain.add_columns(&mut table, &inputs.stations)?;
         table
     } else {
@@ -438,9 +479,16 @@ fn correct(args: &CorrectArgs) -> anyhow::Result<()> {
         crate::nested::preflight(&inputs, &settings, &engine)?;
         let chain = crate::anomaly::prepare(&inputs, &settings, &reduction)?;
         started = Instant::now();
-        let layered = crate::nested::compute(&inputs, &engine, args.run.quiet, args.run.threads)?;
-        let results: Vec<StationResult> = layered.iter().map(|r| r.combined.clone()).collect();
+        let layered =
+            crate::nested::compute(&inputs, &engine, &zones, args.run.quiet, args.run.threads)?;
+        let mut results: Vec<StationResult> = layered.iter().map(|r| r.combined.clone()).collect();
+        let dem_inner = field
+            .as_ref()
+            .map(|f| f.apply(&mut results, &chain.densities));
         let mut table = correction_table_with(&inputs, &plan, &results, &chain.densities, None)?;
+        if let (Some(f), Some(d)) = (&field, &dem_inner) {
+            f.add_columns(&mut table, d)?;
+        }
         crate::nested::add_columns(&mut table, &plan, &layered, settings.engine.outer_radius_m)?;
         chain.add_columns(&mut table, &inputs.stations)?;
         table
@@ -535,6 +583,8 @@ fn demo(args: &DemoArgs) -> anyhow::Result<()> {
             density: crate::units::STANDARD_DENSITY_KG_M3,
             convention: ConventionArg::Spherical,
             allow_gaps: false,
+            field_inner_col: None,
+            field_inner_radius: None,
         },
         reduction: ReductionArgs::default(),
         run: args.run.clone(),

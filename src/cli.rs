@@ -157,6 +157,28 @@ pub struct PhysicsArgs {
     /// coverage column says how much of the disc had data.
     #[arg(long, help_heading = "Input")]
     pub allow_gaps: bool,
+
+    /// Column of field-estimated inner-zone corrections (mGal, at the run's density): for
+    /// the stations that have a value, it replaces the DEM's part within
+    /// --field-inner-radius; both values are written (tc_inner_field_mgal,
+    /// tc_inner_dem_mgal).
+    #[arg(
+        long,
+        value_name = "NAME",
+        requires = "field_inner_radius",
+        help_heading = "Zones"
+    )]
+    pub field_inner_col: Option<String>,
+
+    /// Radius the field inner-zone values cover, e.g. 53.3m (the outer edge of Hammer's
+    /// zone C).
+    #[arg(
+        long,
+        value_name = "LENGTH",
+        requires = "field_inner_col",
+        help_heading = "Zones"
+    )]
+    pub field_inner_radius: Option<String>,
 }
 
 /// Reference ellipsoid of normal gravity.

@@ -21,6 +21,7 @@ pub mod benchdata;
 pub mod cli;
 pub mod dem;
 pub mod engine;
+pub mod field_inner;
 pub mod kernels;
 pub mod map;
 pub mod nested;

@@ -309,6 +309,7 @@ pub fn engines<'a>(inputs: &'a Inputs, settings: &Settings, plan: &ZonePlan) -> 
 pub fn compute(
     inputs: &Inputs,
     engine: &LayeredEngine,
+    zones: &[Option<crate::zones::InnerZone>],
     quiet: bool,
     threads: Option<usize>,
 ) -> anyhow::Result<Vec<LayeredResult>> {
@@ -320,7 +321,7 @@ pub fn compute(
             .into_par_iter()
             .map(|i| {
                 let ps: Vec<Point> = points.iter().map(|p| p[i]).collect();
-                let r = engine.compute(&ps);
+                let r = engine.compute(&ps, zones[i]);
                 bar.inc(1);
                 r
             })

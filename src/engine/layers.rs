@@ -11,6 +11,7 @@
 
 use super::{Engine, Point, StationResult};
 use crate::dem::Dem;
+use crate::zones::InnerZone;
 
 /// Sample points per cell side when weights are computed.
 pub const WEIGHT_SAMPLES: usize = 4;
@@ -141,12 +142,18 @@ impl LayeredEngine<'_> {
         self.engines[last].coverage(points[last])
     }
 
-    /// The correction at one station, given its position in each DEM's CRS.
-    pub fn compute(&self, points: &[Point]) -> Option<LayeredResult> {
+    /// The correction at one station, given its position in each DEM's CRS; `inner`
+    /// replaces the plan's inner zone in the serving DEM (a field value's disc).
+    pub fn compute(&self, points: &[Point], inner: Option<InnerZone>) -> Option<LayeredResult> {
         let serving = self.serving(points)?;
         let mut per_dem = Vec::with_capacity(self.engines.len());
         for (i, (engine, &p)) in self.engines.iter().zip(points).enumerate() {
-            per_dem.push(engine.compute_with(p, i != serving));
+            per_dem.push(match inner {
+                Some(zone) if i == serving => engine.compute_with_inner(p, zone),
+                // The other DEMs leave out the same disc (their cells there have no
+                // weight left but are dropped all the same).
+                _ => engine.compute_with(p, i != serving),
+            });
         }
         let mut combined = per_dem[serving].clone();
         for (i, r) in per_dem.iter().enumerate() {

@@ -520,6 +520,24 @@ impl<'a> Engine<'a> {
             })
             .collect()
     }
+
+    /// As [`Engine::compute_all`], with an inner zone of its own for some points.
+    pub fn compute_all_inner(
+        &self,
+        points: &[Point],
+        inner: &[Option<InnerZone>],
+        tick: &(dyn Fn() + Sync),
+    ) -> Vec<StationResult> {
+        points
+            .par_iter()
+            .zip(inner)
+            .map(|(&p, &zone)| {
+                let r = self.compute_full(p, false, zone);
+                tick();
+                r
+            })
+            .collect()
+    }
 }
 
 /// Running sums of one station.
