@@ -604,22 +604,77 @@ fn demo(args: &DemoArgs) -> anyhow::Result<()> {
 /// `ringsum plan`: the rings, and their cost measured on sample points of this DEM.
 fn plan(args: &PlanArgs) -> anyhow::Result<()> {
     let settings = Settings::from_args(&args.physics)?;
-    if args.dem.len() > 1 {
-        bail!(
-            "{} DEMs were given; nested DEMs are not supported yet: give one --dem",
-            args.dem.len()
-        );
-    }
-    let dem = read_dem(&args.dem[0])?;
+    let radius = settings.engine.outer_radius_m;
+    let (inputs, points_per_dem) = match &args.stations {
+        Some(stations) => {
+            let input = InputArgs {
+                dem: args.dem.clone(),
+                stations: stations.clone(),
+                stations_crs: args.stations_crs.clone(),
+                station_col: None,
+                x_col: None,
+                y_col: None,
+                elev_col: None,
+            };
+            let inputs = crate::nested::load(&input, Some(radius))?;
+            let mut points = crate::nested::points_per_dem(&inputs);
+            for p in points.iter_mut() {
+                p.truncate(25);
+            }
+            (inputs, points)
+        }
+        None if args.dem.len() > 1 => {
+            bail!(
+                "{} DEMs were given; plan needs --stations to place them against each other",
+                args.dem.len()
+            )
+        }
+        None => {
+            let dem = read_dem(&args.dem[0])?;
+            let points = sample_points(&dem, radius);
+            let reads = vec![crate::nested::ReadReport {
+                path: dem.source.clone(),
+                cells_read: dem.len(),
+                cells_in_file: dem.len(),
+                cell_size_m: dem.cell_size_m(),
+            }];
+            let stations = StationTable {
+                path: PathBuf::from("(sample points)"),
+                headers: Vec::new(),
+                stations: Vec::new(),
+                records: Vec::new(),
+                input_crs: None,
+            };
+            (
+                Inputs {
+                    dem,
+                    stations,
+                    layers: Vec::new(),
+                    notes: Vec::new(),
+                    reads,
+                },
+                vec![points],
+            )
+        }
+    };
+    let dem = &inputs.dem;
     let cell = dem.cell_size_m();
     let zone_plan = settings.plan(cell)?;
-    let points = sample_points(&dem, settings.engine.outer_radius_m);
     let build_started = Instant::now();
-    let engine = Engine::new(&dem, settings.engine, zone_plan.clone());
+    let engine = crate::nested::engines(&inputs, &settings, &zone_plan);
     let build_s = build_started.elapsed().as_secs_f64();
+    let count = points_per_dem[0].len();
     let started = Instant::now();
-    let results = with_threads(Some(1), || engine.compute_all(&points, &|| ()))?;
-    let per_station_s = started.elapsed().as_secs_f64() / points.len().max(1) as f64;
+    let results: Vec<StationResult> = with_threads(Some(1), || {
+        (0..count)
+            .filter_map(|i| {
+                let ps: Vec<Point> = points_per_dem.iter().map(|p| p[i]).collect();
+                engine.compute(&ps, None).map(|r| r.combined)
+            })
+            .collect()
+    })?;
+    let per_station_s = started.elapsed().as_secs_f64() / results.len().max(1) as f64;
+    let points = &points_per_dem[0];
     let n = results.len().max(1) as f64;
     let mean =
         |f: &dyn Fn(&StationResult) -> u64| results.iter().map(|r| f(r) as f64).sum::<f64>() / n;
@@ -685,11 +740,16 @@ fn plan(args: &PlanArgs) -> anyhow::Result<()> {
         points.len(),
         build_s
     );
-    println!(
-        "memory: DEM {:.1} MB, block pyramid {:.1} MB",
-        (dem.len() * 4) as f64 / 1e6,
-        engine.pyramid.bytes() as f64 / 1e6
-    );
+    for (report, e) in inputs.reads.iter().zip(&engine.engines) {
+        println!(
+            "read: {}; block pyramid {:.1} MB",
+            report.describe(),
+            e.pyramid.bytes() as f64 / 1e6
+        );
+    }
+    for note in &inputs.notes {
+        println!("note: {note}");
+    }
     Ok(())
 }
 

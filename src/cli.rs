@@ -288,9 +288,18 @@ pub struct CorrectArgs {
 
 #[derive(Debug, Clone, Args)]
 pub struct PlanArgs {
-    /// DEM raster (as for `correct`).
+    /// DEM raster (as for `correct`; several, finest first, with --stations).
     #[arg(long, value_name = "PATH", required = true, help_heading = "Input")]
     pub dem: Vec<PathBuf>,
+
+    /// Station file: the cost is measured on its first 25 stations, and the plan says how
+    /// much of each DEM they need read. Needed with several DEMs.
+    #[arg(long, value_name = "PATH", help_heading = "Input")]
+    pub stations: Option<PathBuf>,
+
+    /// CRS of the station coordinates (as for `correct`).
+    #[arg(long, value_name = "CRS", help_heading = "Input")]
+    pub stations_crs: Option<String>,
 
     #[command(flatten)]
     pub physics: PhysicsArgs,
