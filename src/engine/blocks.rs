@@ -175,8 +175,10 @@ pub const HIGH_ORDER_MAX_FRACTION: f64 = 0.05;
 /// trend, which a large block crossing a ridge or a valley at the edge gets wrong.
 pub const CUT_BLOCK_MAX_RATIO: f64 = 0.1;
 
-/// Most row bands scanned when a block cut by the zone's edge is reduced to its inside cells.
-const MAX_BANDS: usize = 64;
+/// Most row bands scanned when a block cut by the zone's edge is reduced to its inside cells
+/// (16 against 64 changed no result of the accuracy study beyond 1e-6 and saved a quarter
+/// of the time at 166.7 km).
+const MAX_BANDS: usize = 16;
 
 /// The inner zone the quadtree leaves out: a box of cells, or the cells whose centres
 /// lie within a radius (m) of the station.
