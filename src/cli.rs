@@ -56,8 +56,9 @@ pub enum ConventionArg {
 /// How the topography is integrated.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
 pub enum MethodArg {
-    /// Inner zone, full-resolution prisms near, pyramid blocks in the middle, sectors far
-    /// (see `ringsum plan`); fast, with an error small against the DEM's own.
+    /// Inner zone, full-resolution prisms near, pyramid blocks with their height statistics
+    /// further out, sectors where the plan has them (see `ringsum plan`); fast, with an
+    /// error small against the DEM's own.
     Zoned,
     /// Every DEM cell inside the outer radius is a prism (brute force; the reference for
     /// checking a few stations).
@@ -79,7 +80,9 @@ pub enum InnerModelArg {
 #[derive(Debug, Clone, Args)]
 pub struct InputArgs {
     /// DEM raster (GeoTIFF, ASCII grid or any single-band raster GDAL reads), north-up, in
-    /// a projected CRS in metres. Nodata is honoured.
+    /// a projected CRS in metres or a geographic CRS in degrees. Nodata is honoured. Give
+    /// several (--dem fine.tif --dem regional.tif ...) to integrate each place from the
+    /// finest DEM with data there; only the part the stations need is read.
     #[arg(long, value_name = "PATH", required = true, help_heading = "Input")]
     pub dem: Vec<PathBuf>,
 
