@@ -51,7 +51,7 @@
 
 use crate::app::{check_density, Inputs, Settings};
 use crate::cli::{EllipsoidArg, FreeAirArg, ReductionArgs, RunArgs};
-use crate::engine::{Convention, Point};
+use crate::engine::Convention;
 use crate::output::{fixed, Table};
 use crate::reduce::{reduce, BouguerModel, Ellipsoid, FreeAirModel, ReductionInput};
 use crate::stations::{geodetic_latitudes, StationTable};
@@ -346,16 +346,7 @@ impl Chain {
         let Some(grids) = &self.water else {
             return Ok(None);
         };
-        let points: Vec<Point> = inputs
-            .stations
-            .stations
-            .iter()
-            .map(|s| Point {
-                x: s.x,
-                y: s.y,
-                elev: s.elev,
-            })
-            .collect();
+        let points = inputs.points();
         let k =
             grids.kernel_difference_m(settings.engine, plan, &points, run.threads, run.quiet)?;
         Ok(Some(k.into_iter().map(|k| grids.effect_mgal(k)).collect()))

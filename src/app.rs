@@ -139,6 +139,21 @@ pub struct Inputs {
     pub reads: Vec<crate::nested::ReadReport>,
 }
 
+impl Inputs {
+    /// The stations as points in the primary DEM's CRS.
+    pub fn points(&self) -> Vec<Point> {
+        self.stations
+            .stations
+            .iter()
+            .map(|s| Point {
+                x: s.x,
+                y: s.y,
+                elev: s.elev,
+            })
+            .collect()
+    }
+}
+
 /// Reads the DEM (one, whole) and the station file, for the commands that take one DEM.
 pub fn load_inputs(input: &InputArgs) -> anyhow::Result<Inputs> {
     if input.dem.len() > 1 {
@@ -198,37 +213,44 @@ pub fn preflight_positions(inputs: &Inputs) -> anyhow::Result<()> {
 
 /// Refuses stations whose disc reaches past the DEM or into nodata, unless gaps are allowed.
 pub fn check_coverage(inputs: &Inputs, settings: &Settings, engine: &Engine) -> anyhow::Result<()> {
-    let dem = &inputs.dem;
-    let table = &inputs.stations;
-    if !settings.allow_gaps {
-        let radius = settings.engine.outer_radius_m;
-        let coverage: Vec<f64> = table
-            .stations
-            .par_iter()
-            .map(|s| {
-                engine.coverage(Point {
-                    x: s.x,
-                    y: s.y,
-                    elev: s.elev,
-                })
-            })
-            .collect();
-        let gaps: Vec<String> = table
-            .stations
-            .iter()
-            .zip(&coverage)
-            .filter(|(_, &c)| c < 1.0)
-            .map(|(s, c)| format!("{} coverage {:.4}", s.id, c))
-            .collect();
-        if !gaps.is_empty() {
-            bail!(
-                "{} station(s) have their {} outer radius reaching past {} or into nodata ({}); use a larger DEM, a smaller --outer-radius, or --allow-gaps to accept this and report the coverage",
-                gaps.len(),
-                format_length(radius),
-                dem.source,
-                list_some(&gaps)
-            );
-        }
+    if settings.allow_gaps {
+        return Ok(());
+    }
+    let coverage: Vec<f64> = inputs
+        .points()
+        .par_iter()
+        .map(|&p| engine.coverage(p))
+        .collect();
+    refuse_gaps(
+        &inputs.stations,
+        &coverage,
+        settings.engine.outer_radius_m,
+        &format!("past {}", inputs.dem.source),
+    )
+}
+
+/// Refuses the stations with coverage below 1, listing them; `past` says what the discs
+/// reach past ("past dem.tif").
+pub fn refuse_gaps(
+    table: &StationTable,
+    coverage: &[f64],
+    radius: f64,
+    past: &str,
+) -> anyhow::Result<()> {
+    let gaps: Vec<String> = table
+        .stations
+        .iter()
+        .zip(coverage)
+        .filter(|(_, &c)| c < 1.0)
+        .map(|(s, c)| format!("{} coverage {:.4}", s.id, c))
+        .collect();
+    if !gaps.is_empty() {
+        bail!(
+            "{} station(s) have their {} outer radius reaching {past} or into nodata ({}); use a larger DEM (or add one), a smaller --outer-radius, or --allow-gaps to accept this and report the coverage",
+            gaps.len(),
+            format_length(radius),
+            list_some(&gaps)
+        );
     }
     Ok(())
 }
@@ -257,20 +279,12 @@ pub fn compute_stations(
     engine: &Engine,
     run: &RunArgs,
 ) -> anyhow::Result<Vec<StationResult>> {
-    let points: Vec<Point> = inputs
-        .stations
-        .stations
-        .iter()
-        .map(|s| Point {
-            x: s.x,
-            y: s.y,
-            elev: s.elev,
-        })
-        .collect();
-    let bar = crate::progress::station_bar(points.len() as u64, run.quiet, "stations");
-    let results = with_threads(run.threads, || engine.compute_all(&points, &|| bar.inc(1)))?;
-    bar.finish_and_clear();
-    Ok(results)
+    compute_stations_inner(
+        inputs,
+        engine,
+        &vec![None; inputs.stations.stations.len()],
+        run,
+    )
 }
 
 /// As [`compute_stations`], with an inner zone of its own for some stations.
@@ -280,16 +294,7 @@ pub fn compute_stations_inner(
     zones: &[Option<crate::zones::InnerZone>],
     run: &RunArgs,
 ) -> anyhow::Result<Vec<StationResult>> {
-    let points: Vec<Point> = inputs
-        .stations
-        .stations
-        .iter()
-        .map(|s| Point {
-            x: s.x,
-            y: s.y,
-            elev: s.elev,
-        })
-        .collect();
+    let points = inputs.points();
     let bar = crate::progress::station_bar(points.len() as u64, run.quiet, "stations");
     let results = with_threads(run.threads, || {
         engine.compute_all_inner(&points, zones, &|| bar.inc(1))

@@ -274,21 +274,12 @@ pub fn preflight(
             .into_par_iter()
             .map(|i| engine.coverage(&per_station(i)))
             .collect();
-        let gaps: Vec<String> = table
-            .stations
-            .iter()
-            .zip(&coverage)
-            .filter(|(_, &c)| c < 1.0)
-            .map(|(s, c)| format!("{} coverage {:.4}", s.id, c))
-            .collect();
-        if !gaps.is_empty() {
-            bail!(
-                "{} station(s) have their {} outer radius reaching past every DEM given or into nodata ({}); add a DEM that reaches further, give a smaller --outer-radius, or --allow-gaps to accept this and report the coverage",
-                gaps.len(),
-                format_length(settings.engine.outer_radius_m),
-                list_some(&gaps)
-            );
-        }
+        crate::app::refuse_gaps(
+            table,
+            &coverage,
+            settings.engine.outer_radius_m,
+            "past every DEM given",
+        )?;
     }
     Ok(())
 }

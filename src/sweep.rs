@@ -29,7 +29,7 @@ use crate::app::{
     check_coverage, check_density, load_inputs, preflight_positions, with_threads, Inputs, Settings,
 };
 use crate::cli::{InputArgs, RunArgs};
-use crate::engine::{coverage_with_pyramid, Engine, Point};
+use crate::engine::{coverage_with_pyramid, Engine};
 use crate::output::{check_target, fixed, write_table, Table, Target};
 use crate::plot::{
     check_plot_target, parse_plot_size, quantile, write_figure, PlotTarget, SweepCurve, SweepFigure,
@@ -251,16 +251,7 @@ pub fn sweep_dem(
     let split = plan.split_at(radii);
     let engine = Engine::new(dem, settings.engine, split.clone());
     check_coverage(inputs, settings, &engine)?;
-    let points: Vec<Point> = inputs
-        .stations
-        .stations
-        .iter()
-        .map(|s| Point {
-            x: s.x,
-            y: s.y,
-            elev: s.elev,
-        })
-        .collect();
+    let points = inputs.points();
     let bar = crate::progress::station_bar(
         points.len() as u64,
         run.quiet,
@@ -692,7 +683,7 @@ fn summary_text(
 mod tests {
     use super::*;
     use crate::dem::Dem;
-    use crate::engine::{Convention, EngineConfig, InnerModel, Method};
+    use crate::engine::{Convention, EngineConfig, InnerModel, Method, Point};
     use crate::zones::AutoSettings;
 
     #[test]
