@@ -1,6 +1,8 @@
-//! Writes the invented scenario of docs/sensitivity.md into a folder: a 30 m DEM of a
-//! synthetic mountain valley, a 500 m DEM of the same ground (block means), and a station
-//! file with an invented "old survey" TC, total and per Hammer zone.
+//! Writes a small invented scenario for trying `sweep`, `audit` and `map` into a folder: a
+//! 30 m DEM of a synthetic mountain valley, a 500 m DEM of the same ground (block means), and
+//! a station file with an invented "old survey" TC, total and per Hammer zone, with height
+//! errors and a re-occupied station for the audit to find. (docs/sensitivity.md runs on the
+//! demo scenario in demo-dem/ instead.)
 //!
 //! ```text
 //! cargo run --example sensitivity_scenario -- OUT_DIR

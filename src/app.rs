@@ -558,10 +558,19 @@ fn demo_folder(given: &Option<PathBuf>) -> anyhow::Result<PathBuf> {
     )
 }
 
-/// Outer radius the demo uses with its single 30 m DEM (fits inside it for every station).
-pub const DEMO_OUTER_RADIUS: &str = "10km";
+/// The demo's DEMs, finest first: the 30 m valley grid, the 3 arc-second lon/lat grid
+/// about 100 km across, and the 500 m regional grid, which holds the 166.7 km disc of
+/// every station.
+pub const DEMO_DEMS: [&str; 3] = [
+    "valley_30m.tif",
+    "middle_3s_geographic.tif",
+    "regional_500m.tif",
+];
 
-/// `ringsum demo`.
+/// Outer radius of the demo: the standard 166.7 km (the default of `correct`).
+pub const DEMO_OUTER_RADIUS: &str = "166.7km";
+
+/// `ringsum demo`: the full standard correction of the bundled scenario.
 fn demo(args: &DemoArgs) -> anyhow::Result<()> {
     let folder = demo_folder(&args.data)?;
     if let Some(parent) = args.out.parent() {
@@ -572,7 +581,7 @@ fn demo(args: &DemoArgs) -> anyhow::Result<()> {
     }
     let correct_args = CorrectArgs {
         input: InputArgs {
-            dem: vec![folder.join("valley_30m.tif")],
+            dem: DEMO_DEMS.iter().map(|name| folder.join(name)).collect(),
             stations: folder.join("stations.csv"),
             stations_crs: None,
             station_col: None,
@@ -597,9 +606,13 @@ fn demo(args: &DemoArgs) -> anyhow::Result<()> {
     };
     if !args.run.quiet {
         eprintln!(
-            "ringsum demo: {} with {} stations, outer radius {}, zoned engine",
-            folder.join("valley_30m.tif").display(),
+            "ringsum demo: {} with the DEMs {} (finest first), outer radius {}, zoned engine",
             folder.join("stations.csv").display(),
+            DEMO_DEMS
+                .iter()
+                .map(|name| folder.join(name).display().to_string())
+                .collect::<Vec<_>>()
+                .join(", "),
             DEMO_OUTER_RADIUS
         );
     }

@@ -30,6 +30,7 @@ use anyhow::{bail, Context};
 use plotters::coord::Shift;
 use plotters::element::DashedPathElement;
 use plotters::prelude::*;
+use plotters::style::text_anchor::{HPos, Pos, VPos};
 use std::path::{Path, PathBuf};
 use std::sync::Once;
 
@@ -330,10 +331,12 @@ pub fn axis_font() -> TextStyle<'static> {
     (FAMILY, 17).into_font().into()
 }
 
-/// A number for a tick label: few digits, no trailing zeros.
+/// A number for a tick label: few digits, no trailing zeros. Below 1e-9 in size a tick
+/// is zero: plotters places ticks at `start + k step`, so the zero tick of an axis that
+/// starts below zero comes out as a rounding remainder such as -2.2e-16.
 pub fn tick(v: f64) -> String {
     let a = v.abs();
-    let s = if a == 0.0 {
+    let s = if a < 1e-9 {
         "0".to_string()
     } else if a >= 100.0 {
         format!("{v:.0}")
@@ -637,15 +640,25 @@ impl Figure for SweepFigure {
             }
             let r95 = median_of(self.main.iter().map(|c| c.r95_m)) / 1000.0;
             let r99 = median_of(self.main.iter().map(|c| c.r99_m)) / 1000.0;
-            for (r, what, style) in [
-                (r95, "95%", BLACK.stroke_width(1)),
-                (r99, "99%", BLACK.stroke_width(2)),
+            // Where along the (logarithmic) axis a radius lies, 0 at the left, 1 at the right.
+            let across = |r: f64| (r / (r_min * 0.95)).ln() / (x_end / (r_min * 0.95)).ln();
+            // The two labels at different heights, so that close radii do not overprint;
+            // a label in the right quarter goes to the left of its line, inside the plot.
+            for (r, what, style, height) in [
+                (r95, "95%", BLACK.stroke_width(1), 0.04),
+                (r99, "99%", BLACK.stroke_width(2), 0.10),
             ] {
                 chart.draw_series(DashedLineSeries::new(vec![(r, y0), (r, y1)], 6, 4, style))?;
+                let left = across(r) > 0.75;
+                let (text, side) = if left {
+                    (format!("{what} at {} km ", km_tick(r)), HPos::Right)
+                } else {
+                    (format!(" {what} at {} km", km_tick(r)), HPos::Left)
+                };
                 chart.draw_series(std::iter::once(Text::new(
-                    format!(" {what} at {} km", km_tick(r)),
-                    (r, y0 + 0.04 * (y1 - y0)),
-                    label_font(),
+                    text,
+                    (r, y0 + height * (y1 - y0)),
+                    label_font().pos(Pos::new(side, VPos::Top)),
                 )))?;
             }
             chart
@@ -1175,5 +1188,9 @@ mod tests {
         assert_eq!(tick(120.0), "120");
         assert_eq!(tick(0.125), "0.125");
         assert_eq!(tick(0.0), "0");
+        assert_eq!(tick(-2.220446049250313e-16), "0");
+        assert_eq!(tick(-0.1 + 0.1 * 3.0 - 0.2), "0");
+        assert_eq!(tick(2e-5), "2.0e-5");
+        assert_eq!(tick(-0.4), "-0.4");
     }
 }

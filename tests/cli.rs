@@ -142,6 +142,60 @@ fn good_run_writes_the_documented_table() {
 }
 
 #[test]
+fn demo_runs_its_three_dems_to_the_standard_radius() {
+    // `ringsum demo` from a folder without demo-dem/: it takes the source tree's scenario
+    // (demo-dem/README.md), the 30 m, 3 arc-second and 500 m DEMs, to 166.7 km.
+    let dir = TestDir::new();
+    let assert = ringsum(&dir)
+        .args(["demo", "--out", "run/tc.csv"])
+        .assert()
+        .success();
+    let stderr = text(&assert.get_output().stderr);
+    for words in [
+        "valley_30m.tif",
+        "middle_3s_geographic.tif",
+        "regional_500m.tif",
+        "outer radius 166.7km",
+        "zoned engine",
+        "ringsum: 40 stations in ",
+    ] {
+        assert!(stderr.contains(words), "'{words}' not in {stderr:?}");
+    }
+    let table = Csv::read(&dir.path().join("run/tc.csv"));
+    assert_eq!(table.rows.len(), 40);
+    for col in [
+        "coverage_dem1",
+        "coverage_dem2",
+        "coverage_dem3",
+        "dems_far",
+    ] {
+        assert!(table.headers.iter().any(|h| h == col), "no {col}");
+    }
+    for i in 0..table.rows.len() {
+        let id = table.get(i, "station").to_string();
+        assert_eq!(table.get(i, "coverage"), "1.0000", "{id}");
+        // Each DEM serves a part: the 30 m grid the inner zone, the 500 m grid the far zone.
+        assert_eq!(table.get(i, "dems_inner"), "1", "{id}");
+        assert!(table.get(i, "dems_mid").contains('2'), "{id}");
+        assert!(table.get(i, "dems_far").ends_with('3'), "{id}");
+        let served: f64 = (1..=3)
+            .map(|k| table.num(i, &format!("coverage_dem{k}")))
+            .sum();
+        assert_close!(
+            served,
+            1.0,
+            2e-4,
+            "{id}: the DEMs' shares add up to the disc"
+        );
+        // The 30 m grid (36 km square) holds 1296 km2 of the 87,300 km2 disc.
+        assert_close!(table.num(i, "coverage_dem1"), 0.0148, 1e-4, "{id}");
+        // Ridges all round: every station has a positive far zone and a large TC.
+        assert!(table.num(i, "tc_far_mgal") > 1.0, "{id}");
+        assert!(table.num(i, "tc_mgal") > 15.0, "{id}");
+    }
+}
+
+#[test]
 fn dash_writes_the_same_table_to_stdout() {
     let s = setup();
     let out_dir = s.dir.make_dir("out");

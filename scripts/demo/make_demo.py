@@ -13,12 +13,22 @@ correctly rounded (+, -, *, /, sqrt, floor, comparisons). No random-number
 distributions and no transcendental functions are used, so the pixel values are
 bit-identical on every run (and should be on any machine with IEEE-754 doubles);
 the GeoTIFF bytes are identical for the pinned package versions in requirements.txt.
+The geographic grid is the exception to "no transcendental functions": its sample
+points go through PROJ's transverse Mercator (pyproj), so its values are
+bit-identical for the pinned pyproj wheel (and its bundled PROJ) on one kind of
+machine, and may differ in the last bits of a sample position elsewhere.
 
 Outputs (in --out, default <repo>/demo-dem):
   valley_30m.tif      30 m cells, 1200 x 1200 (36 km x 36 km), cell = mean of 3x3
                       point samples of the terrain function
   regional_500m.tif   500 m cells, 720 x 720 (360 km x 360 km), cell = mean of
                       10x10 point samples of the same function
+  middle_3s_geographic.tif
+                      3 arc-second cells on longitude and latitude (EPSG:4326),
+                      1560 x 1080 cells, about 100 km x 100 km around the valley;
+                      cell = mean of 4x4 point samples on longitude and latitude,
+                      each taken to EPSG:32633 with pyproj before the terrain
+                      function is evaluated
   stations.csv        station,x,y,elev  (elev = bilinear height from the 30 m grid
                       plus a deterministic survey error within +-0.29 m)
 
@@ -34,6 +44,7 @@ import sys
 import tempfile
 
 import numpy as np
+import pyproj
 import rasterio
 from rasterio.transform import Affine
 
@@ -52,9 +63,25 @@ COARSE_CELL = 500.0
 COARSE_N = 720  # 360 km x 360 km
 COARSE_SUB = 10  # 10x10 point samples per 500 m cell (50 m spacing)
 
+# The middle grid: longitude and latitude on WGS 84, in whole arc-seconds so that the
+# edges and the cell size are exact. The valley's centre is at 15 E, 46.9535 N; the
+# valley grid spans about 14.76-15.24 E and 46.79-47.12 N. The edges leave about
+# 31-33 km of middle grid around the valley grid on every side (about 44 km from the
+# closest station), which keeps the file at about 4.3 MB.
+MID_CRS = "EPSG:4326"
+MID_STEP = 3  # arc-seconds
+MID_WEST = 14 * 3600 + 21 * 60  # 14.35 E, in arc-seconds
+MID_EAST = 15 * 3600 + 39 * 60  # 15.65 E
+MID_SOUTH = 46 * 3600 + 30 * 60  # 46.5 N
+MID_NORTH = 47 * 3600 + 24 * 60  # 47.4 N
+MID_COLS = (MID_EAST - MID_WEST) // MID_STEP  # 1560
+MID_ROWS = (MID_NORTH - MID_SOUTH) // MID_STEP  # 1080
+MID_SUB = 4  # 4x4 point samples per cell (about 23 m apart north-south, 16 m east-west)
+
 STATION_BOX = 6000.0  # stations lie within +-6 km of the centre in x and y
 DEMO_RADIUS_FINE = 10000.0  # radius the demo uses with valley_30m.tif alone
-DEMO_RADIUS_REGIONAL = 166700.0  # radius the demo uses with both DEMs
+DEMO_RADIUS_REGIONAL = 166700.0  # radius the demo uses with the regional DEM
+DEMO_RADIUS_MIDDLE = 40000.0  # a radius that the middle grid holds for every station
 
 # ---------------------------------------------------------------------------
 # Deterministic primitives
@@ -472,11 +499,56 @@ def _publish(tmp, path):
     os.replace(tmp, path)
 
 
-def write_geotiff(path, data, cell, description):
-    west, north = grid_origin(data.shape[0], cell)
+def mid_transform():
+    """Geotransform of the middle grid (degrees)."""
+    step = MID_STEP / 3600.0
+    return Affine(step, 0.0, MID_WEST / 3600.0, 0.0, -step, MID_NORTH / 3600.0)
+
+
+def _to_utm():
+    """Longitude, latitude (WGS 84) -> EPSG:32633 easting, northing, with pyproj."""
+    return pyproj.Transformer.from_crs(MID_CRS, CRS, always_xy=True)
+
+
+def geographic_mean_grid():
+    """MID_ROWS x MID_COLS grid of cell means on longitude and latitude, float64.
+
+    Each cell is the mean of MID_SUB x MID_SUB point samples on a regular sub-grid of
+    longitude and latitude; every sample is taken to EPSG:32633 with pyproj, and the
+    terrain function is evaluated there. Over a 3-arc-second cell the area per sample
+    varies by less than 1e-6, so the plain mean is the area mean.
+    """
+    to_utm = _to_utm()
+    rows_per_chunk = max(1, 12000 // MID_COLS)
+    sub = MID_SUB
+    out = np.empty((MID_ROWS, MID_COLS), dtype=np.float64)
+    # sample positions in units of the sub-step, from the west and north edges
+    col_k = np.arange(MID_COLS, dtype=np.float64) * sub
+    for r0 in range(0, MID_ROWS, rows_per_chunk):
+        r1 = min(MID_ROWS, r0 + rows_per_chunk)
+        row_k = np.arange(r0, r1, dtype=np.float64) * sub
+        acc = np.zeros((r1 - r0, MID_COLS), dtype=np.float64)
+        for ky in range(sub):  # fixed summation order
+            lat = (MID_NORTH - (row_k + (ky + 0.5)) * (MID_STEP / sub)) / 3600.0
+            for kx in range(sub):
+                lon = (MID_WEST + (col_k + (kx + 0.5)) * (MID_STEP / sub)) / 3600.0
+                lo = np.repeat(lon[None, :], r1 - r0, axis=0).ravel()
+                la = np.repeat(lat[:, None], MID_COLS, axis=1).ravel()
+                e, n = to_utm.transform(lo, la)
+                h = _terrain_parts(np.asarray(e) - E0, np.asarray(n) - N0)["h"]
+                acc += h.reshape(acc.shape)
+        out[r0:r1] = acc / float(sub * sub)
+    return out
+
+
+def write_geotiff(path, data, cell, description, crs=CRS, transform=None):
+    """Write one grid; by default a square grid of `cell` m centred on E0, N0."""
+    if transform is None:
+        west, north = grid_origin(data.shape[0], cell)
+        transform = Affine(cell, 0.0, west, 0.0, -cell, north)
     profile = {
         "driver": "GTiff", "height": data.shape[0], "width": data.shape[1], "count": 1,
-        "dtype": "float32", "crs": CRS, "transform": Affine(cell, 0.0, west, 0.0, -cell, north),
+        "dtype": "float32", "crs": crs, "transform": transform,
         "nodata": NODATA, "compress": "deflate", "predictor": 3, "zlevel": 9,
         "tiled": True, "blockxsize": 256, "blockysize": 256,
     }
@@ -674,11 +746,65 @@ def check_lake():
     return float(np.min(parts["dry"][ring] - LAKE_LEVEL))
 
 
-def summarize(fine, coarse, rows):
+def middle_against_fine(middle, fine):
+    """Middle cells against the mean of the 30 m cells whose centres fall inside them.
+
+    Only middle cells holding at least 5 such centres (of about 6.5) are compared.
+    Returns (cells compared, mean, rms, largest absolute difference) in m.
+    """
+    west, north = grid_origin(FINE_N, FINE_CELL)
+    xc = west + FINE_CELL * (np.arange(FINE_N) + 0.5)
+    yc = north - FINE_CELL * (np.arange(FINE_N) + 0.5)
+    x = np.repeat(xc[None, :], FINE_N, axis=0).ravel()
+    y = np.repeat(yc[:, None], FINE_N, axis=1).ravel()
+    lon, lat = pyproj.Transformer.from_crs(CRS, MID_CRS, always_xy=True).transform(x, y)
+    ci = np.floor((np.asarray(lon) * 3600.0 - MID_WEST) / MID_STEP).astype(np.int64)
+    ri = np.floor((MID_NORTH - np.asarray(lat) * 3600.0) / MID_STEP).astype(np.int64)
+    if ci.min() < 0 or ri.min() < 0 or ci.max() >= MID_COLS or ri.max() >= MID_ROWS:
+        raise RuntimeError("the middle grid does not hold the whole 30 m grid")
+    idx = ri * MID_COLS + ci
+    count = np.bincount(idx, minlength=middle.size)
+    total = np.bincount(idx, weights=fine.astype(np.float64).ravel(), minlength=middle.size)
+    use = count >= 5
+    diff = middle.astype(np.float64).ravel()[use] - total[use] / count[use]
+    return int(use.sum()), diff.mean(), np.sqrt((diff ** 2).mean()), np.abs(diff).max()
+
+
+def middle_margin(rows, radius):
+    """Smallest geodesic distance (m) from a station to the middle grid's edge, less `radius`.
+
+    The edge is sampled every 3 arc-seconds; distances on the WGS 84 ellipsoid (pyproj.Geod).
+    """
+    to_geo = pyproj.Transformer.from_crs(CRS, MID_CRS, always_xy=True)
+    geod = pyproj.Geod(ellps="WGS84")
+    lon_edge = np.arange(MID_WEST, MID_EAST + 1, MID_STEP, dtype=np.float64) / 3600.0
+    lat_edge = np.arange(MID_SOUTH, MID_NORTH + 1, MID_STEP, dtype=np.float64) / 3600.0
+    blon = np.concatenate([lon_edge, lon_edge, np.full_like(lat_edge, MID_WEST / 3600.0),
+                           np.full_like(lat_edge, MID_EAST / 3600.0)])
+    blat = np.concatenate([np.full_like(lon_edge, MID_SOUTH / 3600.0),
+                           np.full_like(lon_edge, MID_NORTH / 3600.0), lat_edge, lat_edge])
+    worst = None
+    for _sid, _cat, x, y, _z in rows:
+        slon, slat = to_geo.transform(x, y)
+        if not (MID_WEST < slon * 3600.0 < MID_EAST and MID_SOUTH < slat * 3600.0 < MID_NORTH):
+            raise RuntimeError("station %s lies outside the middle grid" % _sid)
+        _f, _b, dist = geod.inv(np.full_like(blon, slon), np.full_like(blat, slat), blon, blat)
+        d = float(np.min(dist))
+        worst = d if worst is None else min(worst, d)
+    return worst - radius
+
+
+def summarize(fine, coarse, rows, middle=None):
     print("valley_30m.tif    %d x %d cells of %.0f m, heights %.2f .. %.2f m"
           % (fine.shape[1], fine.shape[0], FINE_CELL, fine.min(), fine.max()))
     print("regional_500m.tif %d x %d cells of %.0f m, heights %.2f .. %.2f m"
           % (coarse.shape[1], coarse.shape[0], COARSE_CELL, coarse.min(), coarse.max()))
+    if middle is not None:
+        print("middle_3s_geographic.tif %d x %d cells of %d arc-seconds, heights %.2f .. %.2f m"
+              % (middle.shape[1], middle.shape[0], MID_STEP, middle.min(), middle.max()))
+        n, mean, rms, worst = middle_against_fine(middle, fine)
+        print("middle vs means of the 30 m cells centred in them (%d cells): mean %+.3f m, "
+              "rms %.3f m, max |%.3f| m" % (n, mean, rms, worst))
     lake_cells = int(np.count_nonzero(fine == np.float32(LAKE_LEVEL)))
     print("lake surface %.2f m over %d fine cells (%.2f km2)"
           % (LAKE_LEVEL, lake_cells, lake_cells * FINE_CELL ** 2 / 1e6))
@@ -709,14 +835,16 @@ def summarize(fine, coarse, rows):
     print("station heights %.2f .. %.2f m" % (min(zs), max(zs)))
 
 
-def verify_geotiff(path, expected, cell):
+def verify_geotiff(path, expected, cell, epsg=32633, transform=None):
     """Read a written grid back and check georeferencing, nodata and every value."""
-    west, north = grid_origin(expected.shape[0], cell)
+    if transform is None:
+        west, north = grid_origin(expected.shape[0], cell)
+        transform = Affine(cell, 0.0, west, 0.0, -cell, north)
     with rasterio.open(path) as src:
         problems = []
-        if src.crs is None or src.crs.to_epsg() != 32633:
-            problems.append("CRS is %s, not EPSG:32633" % src.crs)
-        if tuple(src.transform)[:6] != (cell, 0.0, west, 0.0, -cell, north):
+        if src.crs is None or src.crs.to_epsg() != epsg:
+            problems.append("CRS is %s, not EPSG:%d" % (src.crs, epsg))
+        if tuple(src.transform)[:6] != tuple(transform)[:6]:
             problems.append("geotransform %s" % (tuple(src.transform)[:6],))
         if src.dtypes != ("float32",) or src.count != 1:
             problems.append("bands %s" % (src.dtypes,))
@@ -780,18 +908,25 @@ def main(argv=None):
 
     fine = block_mean_grid(FINE_N, FINE_CELL, FINE_SUB).astype(np.float32)
     coarse = block_mean_grid(COARSE_N, COARSE_CELL, COARSE_SUB).astype(np.float32)
-    if not (np.isfinite(fine).all() and np.isfinite(coarse).all()):
+    middle = geographic_mean_grid().astype(np.float32)
+    if not (np.isfinite(fine).all() and np.isfinite(coarse).all()
+            and np.isfinite(middle).all()):
         raise RuntimeError("terrain function produced a non-finite height")
 
     write_geotiff(os.path.join(args.out, "valley_30m.tif"), fine,
                   FINE_CELL, "30 m cell means of 3x3 point samples")
     write_geotiff(os.path.join(args.out, "regional_500m.tif"), coarse,
                   COARSE_CELL, "500 m cell means of 10x10 point samples")
+    write_geotiff(os.path.join(args.out, "middle_3s_geographic.tif"), middle, None,
+                  "3 arc-second cell means of 4x4 point samples", crs=MID_CRS,
+                  transform=mid_transform())
     rows = make_stations(fine)
     write_stations(os.path.join(args.out, "stations.csv"), rows)
 
     verify_geotiff(os.path.join(args.out, "valley_30m.tif"), fine, FINE_CELL)
     verify_geotiff(os.path.join(args.out, "regional_500m.tif"), coarse, COARSE_CELL)
+    verify_geotiff(os.path.join(args.out, "middle_3s_geographic.tif"), middle, None,
+                   epsg=4326, transform=mid_transform())
     spare = verify_stations(os.path.join(args.out, "stations.csv"), rows, fine)
     cw, cn = grid_origin(COARSE_N, COARSE_CELL)
     spare_reg = min(min(r[2] - cw, cw + COARSE_N * COARSE_CELL - r[2],
@@ -799,18 +934,24 @@ def main(argv=None):
     spare_reg -= DEMO_RADIUS_REGIONAL
     if spare_reg < 0.0:
         raise RuntimeError("a %g m radius leaves the 500 m grid" % DEMO_RADIUS_REGIONAL)
+    spare_mid = middle_margin(rows, DEMO_RADIUS_MIDDLE)
+    if spare_mid < 0.0:
+        raise RuntimeError("a %g m radius leaves the middle grid" % DEMO_RADIUS_MIDDLE)
 
     print("read back: CRS, geotransform, nodata, compression and all values check out")
     print("radius %.1f km fits valley_30m.tif with %.2f km to spare; %.1f km fits "
           "regional_500m.tif with %.2f km to spare"
           % (DEMO_RADIUS_FINE / 1000, spare / 1000, DEMO_RADIUS_REGIONAL / 1000,
              spare_reg / 1000))
+    print("radius %.1f km fits middle_3s_geographic.tif with %.2f km to spare (geodesic)"
+          % (DEMO_RADIUS_MIDDLE / 1000, spare_mid / 1000))
     print("lake edge margin above water: %.2f m" % margin)
-    summarize(fine, coarse, rows)
+    summarize(fine, coarse, rows, middle)
     if args.with_categories:
         for sid, cat, x, y, z in rows:
             print("  %s %-12s %.2f %.2f %.2f" % (sid, cat, x, y, z))
-    for name in ("valley_30m.tif", "regional_500m.tif", "stations.csv"):
+    for name in ("valley_30m.tif", "middle_3s_geographic.tif", "regional_500m.tif",
+                 "stations.csv"):
         p = os.path.join(args.out, name)
         print("%s  %8d bytes  %s" % (sha256(p), os.path.getsize(p), name))
     return 0

@@ -206,7 +206,8 @@ impl DemHeader {
         let c1 = (((x_hi - gt[0]) / gt[1]).ceil().max(0.0) as usize).min(self.cols);
         let r0 = ((y_hi - gt[3]) / gt[5]).floor().max(0.0) as usize;
         let r1 = (((y_lo - gt[3]) / gt[5]).ceil().max(0.0) as usize).min(self.rows);
-        (c1 > c0 && r1 > r0).then_some((c0, r0, c1 - c0, r1 - r0))
+        // `then`, not `then_some`: the differences must not be taken when the box misses.
+        (c1 > c0 && r1 > r0).then(|| (c0, r0, c1 - c0, r1 - r0))
     }
 
     /// Reads the heights of the whole file, or of a cell window `(c0, r0, cols, rows)`.
