@@ -242,7 +242,15 @@ pub fn refuse_gaps(
         .iter()
         .zip(coverage)
         .filter(|(_, &c)| c < 1.0)
-        .map(|(s, c)| format!("{} coverage {:.4}", s.id, c))
+        .map(|(s, &c)| {
+            // Just short of 1 would print as 1.0000: show the digits that matter.
+            let shown = if c > 0.99995 {
+                format!("{c:.6}")
+            } else {
+                format!("{c:.4}")
+            };
+            format!("{} coverage {shown}", s.id)
+        })
         .collect();
     if !gaps.is_empty() {
         bail!(

@@ -60,7 +60,7 @@ struct Moments {
 /// the value, the height terms, the spatial terms, and the size of the third- and
 /// fourth-order terms among the height terms (an error indicator).
 fn taylor_terms(m: &Moments, vx: f64, vy: f64, curvature: f64) -> (f64, f64, f64, f64) {
-    let r = m.e.hypot(m.nn_);
+    let r = (m.e * m.e + m.nn_ * m.nn_).sqrt();
     let t = column_taylor(r, m.h, curvature);
     let (ue, un) = (m.e / r, m.nn_ / r);
     // Horizontal second derivatives of a function of r = sqrt(e^2 + n^2).
@@ -290,7 +290,9 @@ pub fn walk<F: Frame>(
         let (e_c, n_c) = rect.centre();
         let ring = ring_of(dmin2.sqrt());
         let accept = match plan.rings[ring].method {
-            RingMethod::Blocks { ratio } => (size as f64) * cw.max(ch) <= ratio * e_c.hypot(n_c),
+            RingMethod::Blocks { ratio } => {
+                (size as f64) * cw.max(ch) <= ratio * (e_c * e_c + n_c * n_c).sqrt()
+            }
             _ => false,
         };
         if !accept {
@@ -390,7 +392,7 @@ pub fn walk<F: Frame>(
                 hhn: m.hhn,
             };
         }
-        let r = m.e.hypot(m.nn_);
+        let r = (m.e * m.e + m.nn_ * m.nn_).sqrt();
         let (vx, vy) = (cw * cw / 12.0, ch * ch / 12.0);
         let (f, height_terms, spatial_terms, high_order) = taylor_terms(&m, vx, vy, curvature);
         let per_cell = f + height_terms + spatial_terms;

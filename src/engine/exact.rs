@@ -116,7 +116,7 @@ pub fn exact_parts<F: Frame>(
             let near_limit = CLOSED_FORM_MAX_RATIO * side + side;
             for k in 0..n_nodes {
                 let e = e_of(c_lo as usize + k);
-                if e.hypot(n_row) < near_limit {
+                if (e * e + n_row * n_row).sqrt() < near_limit {
                     base_top[k] = nagy_corner(e, n2, 0.0);
                     base_bottom[k] = nagy_corner(e, n1, 0.0);
                 }
