@@ -123,6 +123,7 @@ fn a_geographic_grid_and_a_utm_grid_of_the_same_terrain_agree() {
             let g = tc(&geo, pg, radius, Method::Zoned, InnerModel::Surface);
             let u = tc(&utm, pu, radius, Method::Zoned, InnerModel::Surface);
             let target = 0.01f64.max(0.005 * u);
+            println!("({lon}, {lat}) at {radius} m: geographic {g:.4}, UTM {u:.4}");
             assert!(
                 (g - u).abs() < target,
                 "({lon}, {lat}) at {radius} m: geographic {g:.4} vs UTM {u:.4}"

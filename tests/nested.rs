@@ -115,6 +115,10 @@ fn a_fine_dem_inside_a_coarse_one_gives_the_fine_result() {
     let nested = run(&dir, &[&small, &coarse], &st, &[]);
     for i in 0..alone.rows.len() {
         let (a, n) = (alone.num(i, "tc_mgal"), nested.num(i, "tc_mgal"));
+        println!(
+            "{}: fine alone {a:.4}, nested {n:.4}",
+            alone.get(i, "station")
+        );
         assert!(
             (a - n).abs() <= 0.01f64.max(0.005 * a),
             "{}: fine {a} vs nested {n}",
@@ -154,6 +158,7 @@ fn a_gap_in_the_fine_dem_is_filled_from_the_coarse_one() {
         assert!(with_gap.num(i, "coverage") < 1.0);
         assert_eq!(filled.get(i, "coverage"), "1.0000");
         let (a, f) = (reference.num(i, "tc_mgal"), filled.num(i, "tc_mgal"));
+        println!("whole {a:.4}, holed and filled {f:.4}");
         assert!(
             (a - f).abs() <= 0.01f64.max(0.005 * a),
             "whole {a} vs filled {f}"
