@@ -88,13 +88,21 @@ pub enum DensityModel {
     Constant(f64),
     /// A column of the station file; an empty field takes `default_kg_m3`.
     Column { name: String, default_kg_m3: f64 },
+    /// A raster: the terrain correction's elements each take their own density (see
+    /// [`crate::density`]); each station's Bouguer correction takes the density under it.
+    /// `reference_kg_m3` is `--density`, the unit of the engine's weighted kernel sums.
+    Raster {
+        path: std::path::PathBuf,
+        reference_kg_m3: f64,
+    },
 }
 
 impl DensityModel {
     /// The density of every station, kg/m3, each checked like `--density`.
-    pub fn densities(&self, table: &StationTable) -> anyhow::Result<Vec<f64>> {
+    pub fn densities(&self, table: &StationTable, crs_wkt: &str) -> anyhow::Result<Vec<f64>> {
         match self {
             DensityModel::Constant(rho) => Ok(vec![*rho; table.stations.len()]),
+            DensityModel::Raster { path, .. } => crate::density::at_stations(path, table, crs_wkt),
             DensityModel::Column {
                 name,
                 default_kg_m3,
@@ -139,9 +147,13 @@ pub struct ReductionSettings {
 impl ReductionSettings {
     /// Checks the reduction options; `density_kg_m3` is the checked `--density`.
     pub fn from_args(args: &ReductionArgs, density_kg_m3: f64) -> anyhow::Result<Self> {
-        let density = match &args.density_col {
-            None => DensityModel::Constant(density_kg_m3),
-            Some(name) => DensityModel::Column {
+        let density = match (&args.density_col, &args.density_raster) {
+            (_, Some(path)) => DensityModel::Raster {
+                path: path.clone(),
+                reference_kg_m3: density_kg_m3,
+            },
+            (None, None) => DensityModel::Constant(density_kg_m3),
+            (Some(name), None) => DensityModel::Column {
                 name: name.clone(),
                 default_kg_m3: density_kg_m3,
             },
@@ -179,8 +191,12 @@ pub struct GravityData {
 /// Everything the chain adds to a run, read and checked before the engine starts.
 #[derive(Debug, Clone)]
 pub struct Chain {
-    /// Density of each station, kg/m3 (TC and Bouguer).
+    /// Density of each station, kg/m3 (its Bouguer correction; printed with a column or a
+    /// raster).
     pub densities: Vec<f64>,
+    /// The density that turns each station's kernel sum into its TC, kg/m3: the station's
+    /// own, or with a raster (whose densities are in the engine's weights) `--density`.
+    pub tc_densities: Vec<f64>,
     /// Whether the densities came from a column (then they are printed).
     pub density_column: bool,
     /// `None` when the station file has no observed gravity.
@@ -200,7 +216,13 @@ pub fn prepare(
     reduction: &ReductionSettings,
 ) -> anyhow::Result<Chain> {
     let table = &inputs.stations;
-    let densities = reduction.density.densities(table)?;
+    let densities = reduction.density.densities(table, &inputs.dem.crs_wkt)?;
+    let tc_densities = match &reduction.density {
+        DensityModel::Raster {
+            reference_kg_m3, ..
+        } => vec![*reference_kg_m3; densities.len()],
+        _ => densities.clone(),
+    };
     let gravity_col = match &reduction.gravity_col {
         Some(name) => Some(table.named_column(name, "--gravity-col")?),
         None => table.find_column(GRAVITY_NAMES),
@@ -228,7 +250,8 @@ pub fn prepare(
     };
     Ok(Chain {
         densities,
-        density_column: matches!(reduction.density, DensityModel::Column { .. }),
+        tc_densities,
+        density_column: !matches!(reduction.density, DensityModel::Constant(_)),
         gravity,
         water,
         ellipsoid: reduction.ellipsoid,

@@ -449,7 +449,21 @@ fn correct(args: &CorrectArgs) -> anyhow::Result<()> {
     let settings = Settings::from_args(&args.physics)?;
     let reduction = ReductionSettings::from_args(&args.reduction, settings.density_kg_m3)?;
     let target = check_target(&args.out)?;
-    let inputs = crate::nested::load(&args.input, Some(settings.engine.outer_radius_m))?;
+    let mut inputs = crate::nested::load(&args.input, Some(settings.engine.outer_radius_m))?;
+    if let crate::anomaly::DensityModel::Raster {
+        path,
+        reference_kg_m3,
+    } = &reduction.density
+    {
+        crate::density::apply(
+            &mut inputs,
+            path,
+            *reference_kg_m3,
+            settings.engine.outer_radius_m,
+            settings.allow_gaps,
+        )?;
+    }
+    let inputs = inputs;
     if !args.run.quiet {
         for note in &inputs.notes {
             eprintln!("ringsum: note: {note}");
@@ -475,10 +489,15 @@ fn correct(args: &CorrectArgs) -> anyhow::Result<()> {
         let mut results = compute_stations_inner(&inputs, &engine, &zones, &args.run)?;
         let dem_inner = field
             .as_ref()
-            .map(|f| f.apply(&mut results, &chain.densities));
+            .map(|f| f.apply(&mut results, &chain.tc_densities));
         let water = chain.water_mgal(&inputs, &settings, &plan, &args.run)?;
-        let mut table =
-            correction_table_with(&inputs, &plan, &results, &chain.densities, water.as_deref())?;
+        let mut table = correction_table_with(
+            &inputs,
+            &plan,
+            &results,
+            &chain.tc_densities,
+            water.as_deref(),
+        )?;
         if let (Some(f), Some(d)) = (&field, &dem_inner) {
             f.add_columns(&mut table, d)?;
         }
@@ -497,8 +516,8 @@ fn correct(args: &CorrectArgs) -> anyhow::Result<()> {
         let mut results: Vec<StationResult> = layered.iter().map(|r| r.combined.clone()).collect();
         let dem_inner = field
             .as_ref()
-            .map(|f| f.apply(&mut results, &chain.densities));
-        let mut table = correction_table_with(&inputs, &plan, &results, &chain.densities, None)?;
+            .map(|f| f.apply(&mut results, &chain.tc_densities));
+        let mut table = correction_table_with(&inputs, &plan, &results, &chain.tc_densities, None)?;
         if let (Some(f), Some(d)) = (&field, &dem_inner) {
             f.add_columns(&mut table, d)?;
         }

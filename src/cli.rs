@@ -221,6 +221,18 @@ pub struct ReductionArgs {
     #[arg(long, value_name = "NAME", help_heading = "Reduction")]
     pub density_col: Option<String>,
 
+    /// Raster of terrain density, kg/m3 (any CRS GDAL and PROJ know): every prism, block
+    /// and sector of the terrain correction takes its own density, sampled at each DEM
+    /// cell's centre; the Bouguer correction takes the density under the station. It must
+    /// cover every station's disc (else refused, or --allow-gaps).
+    #[arg(
+        long,
+        value_name = "PATH",
+        conflicts_with = "density_col",
+        help_heading = "Reduction"
+    )]
+    pub density_raster: Option<PathBuf>,
+
     /// Column of the geoid undulation N, m. With it the station heights are orthometric
     /// (on the DEM's datum, as the TC needs) and h = H + N is used for the free-air,
     /// atmospheric and Bouguer corrections; without it the heights are used as given for

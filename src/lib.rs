@@ -20,6 +20,7 @@ pub mod audit;
 pub mod benchdata;
 pub mod cli;
 pub mod dem;
+pub mod density;
 pub mod engine;
 pub mod field_inner;
 pub mod kernels;

@@ -75,6 +75,16 @@ impl DemHeader {
     /// geotransform, a projected CRS in metres or a geographic one in degrees, a known
     /// vertical unit.
     pub fn open(path: &Path) -> Result<DemHeader, DemError> {
+        DemHeader::open_with(path, true)
+    }
+
+    /// Opens a raster of other values than heights (a density raster, say): the same
+    /// checks, but its unit is not read as a vertical unit and nothing is converted.
+    pub fn open_values(path: &Path) -> Result<DemHeader, DemError> {
+        DemHeader::open_with(path, false)
+    }
+
+    fn open_with(path: &Path, heights: bool) -> Result<DemHeader, DemError> {
         let p = path.display().to_string();
         if !path.exists() {
             return Err(DemError::NotFound { path: p });
@@ -153,7 +163,12 @@ impl DemHeader {
                 detail: e.to_string(),
             })?
             .unit();
-        let unit_factor = vertical_unit_factor(&unit).ok_or_else(|| DemError::VerticalUnit {
+        let unit_factor = if !heights {
+            Some(1.0)
+        } else {
+            vertical_unit_factor(&unit)
+        };
+        let unit_factor = unit_factor.ok_or_else(|| DemError::VerticalUnit {
             path: p.clone(),
             unit,
         })?;

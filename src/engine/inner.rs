@@ -61,6 +61,17 @@ const MAX_BREAKS: usize = 96;
 /// Ratio of the geometric grading of the ray's start, from half the station's offset.
 const GRADING: f64 = 8.0;
 
+/// Weight of the station's own cell (1 off the grid): the inner surface's share of the
+/// DEM, times its density over the reference density when a density raster is given.
+fn station_weight(dem: &Dem, p: Point) -> f64 {
+    let col = ((p.x - dem.x_left) / dem.dx).floor();
+    let row = ((dem.y_top - p.y) / dem.dy).floor();
+    if col < 0.0 || row < 0.0 || col as usize >= dem.cols || row as usize >= dem.rows {
+        return 1.0;
+    }
+    dem.weight(col as usize, row as usize)
+}
+
 /// Area of the inner box's cells with data whose centres lie within the outer radius, m^2.
 pub fn box_area<F: Frame>(dem: &Dem, frame: &F, p: Point, cells: &CellBox, outer_m: f64) -> f64 {
     let mut area = 0.0;
@@ -498,7 +509,7 @@ pub fn surface_square<F: Frame>(
         };
         te.min(tn)
     };
-    region.integrate(&rho_max, critical, evaluations)
+    region.integrate(&rho_max, critical, evaluations) * station_weight(dem, p)
 }
 
 /// The surface inner model over a disc of radius `radius_m` around the station.
@@ -531,7 +542,7 @@ pub fn surface_disc<F: Frame>(
         lines_e,
         lines_n,
     };
-    region.integrate(&|_, _| radius_m, critical, evaluations)
+    region.integrate(&|_, _| radius_m, critical, evaluations) * station_weight(dem, p)
 }
 
 #[cfg(test)]
