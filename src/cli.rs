@@ -6,12 +6,25 @@
 use clap::{Args, Parser, Subcommand, ValueEnum};
 use std::path::PathBuf;
 
-const AFTER_HELP: &str = "\
-Exit status: 0 success; 1 the input or a result was refused (one sentence on stderr says
-why, and no output file is left behind); 2 the command line itself is wrong.
+/// The exit statuses of every command that writes a result (a literal, for `concat!`).
+macro_rules! exit_status_help {
+    () => {
+        "Exit status: 0 success; 1 the input or a result was refused (one sentence on stderr says
+why, and no output file is left behind); 2 the command line itself is wrong."
+    };
+}
 
-Units: lengths take m or km (166.7km, 500m; a bare number is metres); density in kg/m3;
-corrections in mGal, positive where the terrain correction adds to gravity.";
+/// The units every command takes and reports (a literal, for `concat!`).
+macro_rules! units_help {
+    () => {
+        "Units: lengths take m or km (166.7km, 500m; a bare number is metres); density in kg/m3;
+corrections in mGal, positive where the terrain correction adds to gravity."
+    };
+}
+
+pub(crate) use {exit_status_help, units_help};
+
+const AFTER_HELP: &str = concat!(exit_status_help!(), "\n\n", units_help!());
 
 /// Gravity terrain corrections from elevation grids.
 #[derive(Debug, Parser)]

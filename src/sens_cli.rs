@@ -2,12 +2,13 @@
 //! re-processing commands). They share [`crate::cli`]'s input, physics and run options
 //! and live in their own file only so that work on the other commands merges cleanly.
 
-use crate::cli::{InputArgs, PhysicsArgs, RunArgs};
+use crate::cli::{exit_status_help, units_help, InputArgs, PhysicsArgs, RunArgs};
 use clap::{Args, ValueEnum};
 use std::path::PathBuf;
 
 /// Help text after `ringsum sweep --help`.
-pub const SWEEP_AFTER_HELP: &str = "\
+pub const SWEEP_AFTER_HELP: &str = concat!(
+    "\
 Table (--out): one row per station and radius: station, radius_m, tc_mgal (TC from the inner
 zone out to that radius), remaining_mgal (the part beyond it, up to the outer radius),
 coverage (fraction of that disc with DEM data), then tc_rho<D>_mgal per --densities value,
@@ -25,14 +26,15 @@ files) move to the ring's nearest edge, since a compartment is integrated whole.
 
 95% and 99%: the first radius from which on the TC stays within 5% (1%) of its final value.
 
-Exit status: 0 success; 1 the input or a result was refused (one sentence on stderr says why,
-and no output file is left behind); 2 the command line itself is wrong.
-
-Units: lengths take m or km (166.7km, 500m; a bare number is metres); density in kg/m3;
-corrections in mGal, positive where the terrain correction adds to gravity.";
+",
+    exit_status_help!(),
+    "\n\n",
+    units_help!()
+);
 
 /// Help text after `ringsum audit --help`.
-pub const AUDIT_AFTER_HELP: &str = "\
+pub const AUDIT_AFTER_HELP: &str = concat!(
+    "\
 Report (--out), one row per station: station, x, y, elev_m, dem_elev_m, elev_minus_dem_m,
 dem_slope_deg, shift_for_mismatch_m (how far the station would have to move on that slope to
 explain the height difference), distance_to_dem_edge_m (negative outside), coverage (of the
@@ -53,11 +55,13 @@ legacy), legacy_zones (per-zone differences, hammer preset), as .png or .svg.
 Exit status: 0 the report was written (whatever it found); 1 the input was refused (one
 sentence on stderr says why, and nothing is written); 2 the command line itself is wrong.
 
-Units: lengths take m or km (166.7km, 500m; a bare number is metres); density in kg/m3;
-corrections in mGal, positive where the terrain correction adds to gravity.";
+",
+    units_help!()
+);
 
 /// Help text after `ringsum map --help`.
-pub const MAP_AFTER_HELP: &str = "\
+pub const MAP_AFTER_HELP: &str = concat!(
+    "\
 Grid: nodes at whole multiples of --spacing inside the extent, each node the centre of its
 GeoTIFF cell (so maps of one spacing line up); every node is computed at the DEM's height
 there, as a station standing on the terrain. Nodes on nodata, and nodes whose disc lacks
@@ -69,11 +73,11 @@ rising with the value) over a hillshade of the DEM (colour times 0.6 + 0.4 x hil
 from the north-west), the DEM around the grid in grey, stations as circles, and a colour
 bar; the picture is --plot-size pixels.
 
-Exit status: 0 success; 1 the input or a result was refused (one sentence on stderr says why,
-and no output file is left behind); 2 the command line itself is wrong.
-
-Units: lengths take m or km (166.7km, 500m; a bare number is metres); density in kg/m3;
-corrections in mGal, positive where the terrain correction adds to gravity.";
+",
+    exit_status_help!(),
+    "\n\n",
+    units_help!()
+);
 
 #[derive(Debug, Clone, Args)]
 pub struct SweepArgs {

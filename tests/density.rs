@@ -2,7 +2,7 @@
 
 mod common;
 
-use common::{ringsum, Csv, TestDir};
+use common::{correct_table, ringsum, Csv, TestDir};
 use ringsum::dem::Dem;
 use ringsum::engine::{Convention, Engine, EngineConfig, InnerModel, Method, Point};
 use ringsum::synthetic::Terrain;
@@ -25,23 +25,7 @@ fn density_grid(f: impl Fn(f64, f64) -> f64) -> Dem {
 }
 
 fn run(dir: &TestDir, dem: &std::path::Path, st: &std::path::Path, extra: &[&str]) -> Csv {
-    let mut cmd = ringsum(dir);
-    cmd.args([
-        "correct",
-        "--quiet",
-        "--out",
-        "-",
-        "--outer-radius",
-        "2km",
-        "--dem",
-    ])
-    .arg(dem)
-    .arg("--stations")
-    .arg(st)
-    .args(extra);
-    Csv::parse(&String::from_utf8_lossy(
-        &cmd.assert().success().get_output().stdout,
-    ))
+    correct_table(dir, &[dem], st, "2km", extra)
 }
 
 fn stations(dir: &TestDir, d: &Dem) -> std::path::PathBuf {

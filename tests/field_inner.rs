@@ -2,27 +2,11 @@
 
 mod common;
 
-use common::{ringsum, Csv, TestDir};
+use common::{correct_table, ringsum, Csv, TestDir};
 use ringsum::synthetic::Terrain;
 
 fn run(dir: &TestDir, dem: &std::path::Path, stations: &std::path::Path, extra: &[&str]) -> Csv {
-    let mut cmd = ringsum(dir);
-    cmd.args([
-        "correct",
-        "--quiet",
-        "--out",
-        "-",
-        "--outer-radius",
-        "3km",
-        "--dem",
-    ])
-    .arg(dem)
-    .arg("--stations")
-    .arg(stations)
-    .args(extra);
-    Csv::parse(&String::from_utf8_lossy(
-        &cmd.assert().success().get_output().stdout,
-    ))
+    correct_table(dir, &[dem], stations, "3km", extra)
 }
 
 #[test]

@@ -3,7 +3,7 @@
 
 mod common;
 
-use common::{fixture, ringsum, Csv, TestDir};
+use common::{correct_table, fixture, ringsum, Csv, TestDir};
 use ringsum::dem::Dem;
 use ringsum::synthetic::Fractal;
 
@@ -75,15 +75,7 @@ fn run(
     stations: &std::path::Path,
     extra: &[&str],
 ) -> Csv {
-    let mut cmd = ringsum(dir);
-    cmd.args(["correct", "--quiet", "--out", "-", "--outer-radius", "8km"]);
-    for d in dems {
-        cmd.arg("--dem").arg(d);
-    }
-    cmd.arg("--stations").arg(stations).args(extra);
-    Csv::parse(&String::from_utf8_lossy(
-        &cmd.assert().success().get_output().stdout,
-    ))
+    correct_table(dir, dems, stations, "8km", extra)
 }
 
 fn stations(dir: &TestDir, dem: &Dem) -> std::path::PathBuf {
@@ -197,28 +189,15 @@ fn dems_in_different_crs_work_together() {
     let st = fixture("jacksboro_stations.csv");
     let utm = fixture("jacksboro_utm.tif");
     let geo = fixture("jacksboro_geographic.tif");
-    let run6 = |dems: &[&std::path::Path], extra: &[&str]| {
-        let mut cmd = ringsum(&dir);
-        cmd.args([
-            "correct",
-            "--quiet",
-            "--out",
-            "-",
-            "--outer-radius",
-            "6km",
-            "--allow-gaps",
-        ]);
-        for d in dems {
-            cmd.arg("--dem").arg(d);
-        }
-        cmd.arg("--stations").arg(&st).args(extra);
-        Csv::parse(&String::from_utf8_lossy(
-            &cmd.assert().success().get_output().stdout,
-        ))
-    };
-    let utm_alone = run6(&[&utm], &[]);
-    let geo_alone = run6(&[&geo], &["--stations-crs", "EPSG:32616"]);
-    let both = run6(&[&utm, &geo], &[]);
+    let utm_alone = correct_table(&dir, &[&utm], &st, "6km", &["--allow-gaps"]);
+    let geo_alone = correct_table(
+        &dir,
+        &[&geo],
+        &st,
+        "6km",
+        &["--allow-gaps", "--stations-crs", "EPSG:32616"],
+    );
+    let both = correct_table(&dir, &[&utm, &geo], &st, "6km", &["--allow-gaps"]);
     for i in 0..both.rows.len() {
         let id = both.get(i, "station").to_string();
         let c = both.num(i, "coverage");

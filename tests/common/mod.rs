@@ -131,6 +131,26 @@ pub fn ringsum(dir: &TestDir) -> assert_cmd::Command {
     cmd
 }
 
+/// Runs `correct --quiet --out -` on `dems` (finest first) and `stations` with the outer
+/// radius `radius` and the `extra` options, expects success, and reads the table.
+pub fn correct_table(
+    dir: &TestDir,
+    dems: &[&Path],
+    stations: &Path,
+    radius: &str,
+    extra: &[&str],
+) -> Csv {
+    let mut cmd = ringsum(dir);
+    cmd.args(["correct", "--quiet", "--out", "-", "--outer-radius", radius]);
+    for d in dems {
+        cmd.arg("--dem").arg(d);
+    }
+    cmd.arg("--stations").arg(stations).args(extra);
+    Csv::parse(&String::from_utf8_lossy(
+        &cmd.assert().success().get_output().stdout,
+    ))
+}
+
 /// A CSV table read back: the header and the rows as text.
 #[derive(Debug, Clone)]
 pub struct Csv {
