@@ -8,8 +8,8 @@
 
 use criterion::{criterion_group, criterion_main, BenchmarkId, Criterion};
 use ringsum::benchdata;
-use ringsum::dem::pyramid::Pyramid;
 use ringsum::dem::read::read_dem;
+use ringsum::engine::pyramid::Pyramid;
 use ringsum::engine::{Convention, Engine, EngineConfig, InnerModel, Method, Point};
 use ringsum::units::{to_mgal, G, STANDARD_OUTER_RADIUS_M};
 use ringsum::zones::{AutoSettings, ZonePlan};

@@ -14,7 +14,7 @@
 
 use crate::app::{load_inputs, with_threads, Settings};
 use crate::cli::InputArgs;
-use crate::dem::pyramid::Pyramid;
+use crate::engine::pyramid::Pyramid;
 use crate::engine::{coverage_with_pyramid, Engine, Point, StationResult};
 use crate::output::{check_target, fixed, write_table, Table, Target};
 use crate::plot::{

@@ -9,11 +9,11 @@
 //! station's cell. Each station's Bouguer correction takes the density under it.
 
 use crate::app::{list_some, Inputs};
-use crate::dem::pyramid::Pyramid;
 use crate::dem::read::DemHeader;
 use crate::dem::Dem;
 use crate::engine::coverage_with_pyramid;
 use crate::engine::layers::transform_between;
+use crate::engine::pyramid::Pyramid;
 use crate::stations::StationTable;
 use crate::units::format_length;
 use anyhow::bail;

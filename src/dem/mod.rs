@@ -5,7 +5,6 @@
 //! `[x_left + col*dx, x_left + (col+1)*dx] x [y_top - (row+1)*dy, y_top - row*dy]`, and
 //! its height is the DEM value at its centre; row 0 is the northern edge.
 
-pub mod pyramid;
 pub mod read;
 pub mod write;
 
@@ -43,7 +42,42 @@ pub enum GridKind {
     /// Eastings and northings in metres of a projected CRS.
     Projected,
     /// Longitudes (x) and latitudes (y) in degrees on this ellipsoid.
-    Geographic(crate::engine::frame::Ellipsoid),
+    Geographic(Ellipsoid),
+}
+
+/// An ellipsoid: semi-major axis (m) and flattening.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Ellipsoid {
+    pub a: f64,
+    pub f: f64,
+}
+
+impl Ellipsoid {
+    /// WGS84 (NIMA TR8350.2).
+    pub const WGS84: Ellipsoid = Ellipsoid {
+        a: 6_378_137.0,
+        f: 1.0 / 298.257_223_563,
+    };
+
+    pub(crate) fn e2(&self) -> f64 {
+        self.f * (2.0 - self.f)
+    }
+
+    /// Prime-vertical (N) and meridian (M) radii of curvature at latitude `phi` (rad), m.
+    pub fn radii(&self, phi: f64) -> (f64, f64) {
+        let e2 = self.e2();
+        let w2 = 1.0 - e2 * phi.sin().powi(2);
+        let n = self.a / w2.sqrt();
+        (n, n * (1.0 - e2) / w2)
+    }
+
+    /// Geocentric position of (lat, lon) (rad) on the ellipsoid, m.
+    pub(crate) fn ecef(&self, phi: f64, lambda: f64) -> [f64; 3] {
+        let (n, _) = self.radii(phi);
+        let (sp, cp) = phi.sin_cos();
+        let (sl, cl) = lambda.sin_cos();
+        [n * cp * cl, n * cp * sl, n * (1.0 - self.e2()) * sp]
+    }
 }
 
 impl Dem {

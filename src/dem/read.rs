@@ -1,7 +1,6 @@
 //! Reading a DEM with GDAL: the only place that opens rasters.
 
-use super::{Dem, GridKind};
-use crate::engine::frame::Ellipsoid;
+use super::{Dem, Ellipsoid, GridKind};
 use gdal::Dataset;
 use std::path::Path;
 

@@ -19,7 +19,7 @@
 //! ```
 //!
 //! with `N` cells of area `A` and the central moments `C` of the pyramid
-//! ([`crate::dem::pyramid`]); the `dx^2/12` terms spread each cell's column over its
+//! ([`crate::engine::pyramid`]); the `dx^2/12` terms spread each cell's column over its
 //! footprint. The height terms carry the block's roughness, which a mean height alone
 //! loses (the kernel is convex in height). (Evaluating the nearer full blocks as one
 //! prism at the mean height plus the height terms instead was measured no more accurate
@@ -27,8 +27,8 @@
 
 use super::frame::Frame;
 use super::{region, CellBox, Parts, Point};
-use crate::dem::pyramid::{block_from_dem, BlockStats, Pyramid};
 use crate::dem::Dem;
+use crate::engine::pyramid::{block_from_dem, BlockStats, Pyramid};
 use crate::kernels::column::column_taylor;
 use crate::kernels::prism_kernel;
 use crate::zones::{RingMethod, ZonePlan};

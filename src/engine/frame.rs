@@ -12,6 +12,7 @@
 //!   s^3 / 6R^2, 19 m at 166.7 km). Cell sizes shrink with latitude as N cos(phi) dlambda
 //!   and M dphi (prime-vertical and meridian radii of curvature).
 
+pub use crate::dem::Ellipsoid;
 use geographiclib_rs::{Geodesic, InverseGeodesic};
 
 /// Distance beyond which the geographic frame uses geodesics, m. Below it the tangent
@@ -59,41 +60,6 @@ impl Frame for ProjectedFrame {
     }
     fn is_plane(&self) -> bool {
         true
-    }
-}
-
-/// An ellipsoid: semi-major axis (m) and flattening.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Ellipsoid {
-    pub a: f64,
-    pub f: f64,
-}
-
-impl Ellipsoid {
-    /// WGS84 (NIMA TR8350.2).
-    pub const WGS84: Ellipsoid = Ellipsoid {
-        a: 6_378_137.0,
-        f: 1.0 / 298.257_223_563,
-    };
-
-    fn e2(&self) -> f64 {
-        self.f * (2.0 - self.f)
-    }
-
-    /// Prime-vertical (N) and meridian (M) radii of curvature at latitude `phi` (rad), m.
-    pub fn radii(&self, phi: f64) -> (f64, f64) {
-        let e2 = self.e2();
-        let w2 = 1.0 - e2 * phi.sin().powi(2);
-        let n = self.a / w2.sqrt();
-        (n, n * (1.0 - e2) / w2)
-    }
-
-    /// Geocentric position of (lat, lon) (rad) on the ellipsoid, m.
-    fn ecef(&self, phi: f64, lambda: f64) -> [f64; 3] {
-        let (n, _) = self.radii(phi);
-        let (sp, cp) = phi.sin_cos();
-        let (sl, cl) = lambda.sin_cos();
-        [n * cp * cl, n * cp * sl, n * (1.0 - self.e2()) * sp]
     }
 }
 

@@ -18,11 +18,12 @@ pub mod exact;
 pub mod frame;
 pub mod inner;
 pub mod layers;
+pub mod pyramid;
 pub mod region;
 pub mod sectors;
 
-use crate::dem::pyramid::Pyramid;
 use crate::dem::{Dem, GridKind};
+use crate::engine::pyramid::Pyramid;
 use crate::units::{EARTH_RADIUS_M, G};
 use crate::zones::{InnerZone, ZoneGroup, ZonePlan};
 use frame::{Frame, GeographicFrame, ProjectedFrame};

@@ -20,8 +20,8 @@
 
 use super::frame::Frame;
 use super::{Parts, Point};
-use crate::dem::pyramid::{block_from_dem, Pyramid};
 use crate::dem::Dem;
+use crate::engine::pyramid::{block_from_dem, Pyramid};
 use crate::kernels::column::column_taylor;
 use crate::kernels::ring_sector_kernel;
 use crate::zones::{RingMethod, ZonePlan};

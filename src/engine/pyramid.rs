@@ -18,7 +18,7 @@
 //! 48 bytes each). Two third moments, E[(h - h_mean)^2 (e - e_mean)] and the same with
 //! the northing, say where in the block its height spread lies.
 
-use super::Dem;
+use crate::dem::Dem;
 use rayon::prelude::*;
 
 /// Statistics of the cells of one block with data. Offsets are from the block's
