@@ -36,6 +36,8 @@ case "${1:-}" in
     ensure_packages
     cargo fmt --all -- --check
     cargo clippy --locked --all-targets -- -D warnings
+    # The core (kernels, zones, engine, reduction, DEM grid) builds without GDAL and PROJ.
+    cargo build --locked --lib --no-default-features
     RUSTDOCFLAGS="-D warnings" cargo doc --locked --no-deps
     cargo test --locked
     ;;

@@ -3,8 +3,8 @@
 //! to `target/bench-data/` by `cargo run --release --example make_bench_data` (or by the
 //! benchmarks when missing) and shared by the benchmarks and the command-line timings.
 
-use crate::dem::write::write_geotiff;
 use crate::dem::Dem;
+use crate::output::geotiff::write_dem;
 use crate::synthetic::Terrain;
 use crate::units::STANDARD_OUTER_RADIUS_M;
 use std::io::Write;
@@ -76,7 +76,7 @@ pub fn ensure_written() -> anyhow::Result<()> {
     let stations = stations(&dem);
     dem.x_left += 500_000.0;
     dem.y_top += 5_000_000.0;
-    write_geotiff(&dem, &dem_path(), Some("EPSG:32633"))?;
+    write_dem(&dem, &dem_path(), Some("EPSG:32633"))?;
     let mut f = std::fs::File::create(stations_path())?;
     writeln!(f, "station,x,y,elev")?;
     for (id, x, y, elev) in stations {

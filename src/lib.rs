@@ -1,39 +1,57 @@
 //! ringsum: gravity terrain corrections from elevation grids.
 //!
-//! The library behind the `ringsum` command. Modules, from the physics up:
+//! The library behind the `ringsum` command. One pipeline serves every command:
+//!
+//! ```text
+//! config (checked settings) -> inputs (DEMs, stations, rasters) -> compute (engine)
+//!   -> results (typed, SI) -> output (tables, grids, plots)
+//! ```
+//!
+//! The core (no native libraries; `cargo build --lib --no-default-features`):
 //! - [`units`]: constants (G, mGal) and the length parser.
 //! - [`kernels`]: gravity of prisms, columns and ring sectors (pure functions).
-//! - [`dem`]: the elevation grid, its GDAL reader and writer.
-//! - [`stations`]: the station file and coordinate transformation (PROJ).
-//! - [`engine`]: per-station integration, parallel over stations.
+//! - [`zones`]: the zone plan (pure data).
+//! - [`dem`]: the elevation grid.
+//! - [`engine`]: per-point integration over a set of DEMs, the block pyramid, and the
+//!   parallel runs (the only place that uses rayon).
 //! - [`reduce`]: the reduction chain's formulas (normal gravity, free-air, Bouguer).
-//! - [`anomaly`]: the reduction chain's columns in the `correct` table, densities.
-//! - [`water`]: lakes and sea in the terrain correction.
-//! - [`output`]: the result table writers.
-//! - [`cli`] and [`app`]: the command line and what each command does.
-//! - [`sweep`], [`audit`], [`map`] (options in [`sens_cli`]) and [`plot`]: sensitivity
-//!   to radius, density and DEM, input checks and legacy comparison, TC grids, plots.
+//! - [`synthetic`]: analytic test terrains.
+//!
+//! Around it (the default feature `io`: GDAL, PROJ, the command line):
+//! - [`cli`] and [`config`]: the command line and its checked settings.
+//! - [`inputs`]: reading DEMs (any number, any CRS, tiles), stations, rasters, water.
+//! - [`compute`] and [`results`]: the engine step and its typed per-point results.
+//! - [`analysis`]: the arithmetic of sweep, audit and map.
+//! - [`output`]: tables, GeoTIFF grids and plots; [`text`] and [`progress`].
+//! - [`commands`]: each command's wiring.
 
-pub mod anomaly;
-pub mod app;
-pub mod audit;
-pub mod benchdata;
-pub mod cli;
 pub mod dem;
-pub mod density;
 pub mod engine;
-pub mod field_inner;
 pub mod kernels;
-pub mod map;
-pub mod nested;
-pub mod output;
-pub mod plot;
-pub mod progress;
 pub mod reduce;
-pub mod sens_cli;
-pub mod stations;
-pub mod sweep;
 pub mod synthetic;
 pub mod units;
-pub mod water;
 pub mod zones;
+
+#[cfg(feature = "io")]
+pub mod analysis;
+#[cfg(feature = "io")]
+pub mod benchdata;
+#[cfg(feature = "io")]
+pub mod cli;
+#[cfg(feature = "io")]
+pub mod commands;
+#[cfg(feature = "io")]
+pub mod compute;
+#[cfg(feature = "io")]
+pub mod config;
+#[cfg(feature = "io")]
+pub mod inputs;
+#[cfg(feature = "io")]
+pub mod output;
+#[cfg(feature = "io")]
+pub mod progress;
+#[cfg(feature = "io")]
+pub mod results;
+#[cfg(feature = "io")]
+pub mod text;

@@ -5,11 +5,16 @@ use std::process::ExitCode;
 
 fn main() -> ExitCode {
     let cli = ringsum::cli::Cli::parse();
-    match ringsum::app::run(cli) {
+    match ringsum::commands::run(cli) {
         Ok(()) => ExitCode::SUCCESS,
         Err(err) => {
             eprintln!("ringsum: {err:#}");
-            ExitCode::from(1)
+            // A mistake on the command line itself exits as clap's own do.
+            if err.downcast_ref::<ringsum::config::UsageError>().is_some() {
+                ExitCode::from(2)
+            } else {
+                ExitCode::from(1)
+            }
         }
     }
 }

@@ -4,9 +4,9 @@
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use std::io::IsTerminal;
 
-/// A bar counting `len` stations, with rate and ETA; hidden when `quiet` or when stderr
-/// is not a terminal.
-pub fn station_bar(len: u64, quiet: bool, what: &str) -> ProgressBar {
+/// A bar counting `len` items named `what` (stations, nodes), with rate and ETA; hidden
+/// when `quiet` or when stderr is not a terminal.
+pub fn bar(len: u64, quiet: bool, what: &str) -> ProgressBar {
     if quiet || !std::io::stderr().is_terminal() {
         return ProgressBar::hidden();
     }

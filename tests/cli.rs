@@ -152,9 +152,9 @@ fn demo_runs_its_three_dems_to_the_standard_radius() {
         .success();
     let stderr = text(&assert.get_output().stderr);
     for words in [
-        "valley_30m.tif",
-        "middle_3s_geographic.tif",
-        "regional_500m.tif",
+        "quillerun_30m.tif",
+        "quillerun_3s_lonlat.tif",
+        "quillerun_500m.tif",
         "outer radius 166.7km",
         "zoned engine",
         "ringsum: 40 stations in ",
@@ -304,8 +304,7 @@ fn stations_in_lon_lat_give_the_same_correction() {
     let reference = run(&fixture("jacksboro_stations.csv"), None);
     assert_eq!(reference.headers, COLUMNS);
     let mut with_xy = COLUMNS.to_vec();
-    with_xy.insert(3, "x_dem");
-    with_xy.insert(4, "y_dem");
+    with_xy.extend(["x_dem", "y_dem"]);
     // --stations-crs EPSG:4326 on x,y columns, and lon,lat columns (which imply it).
     for table in [run(&geo, Some("EPSG:4326")), run(&geo_named, None)] {
         assert_eq!(table.headers, with_xy);

@@ -138,7 +138,7 @@ fn latitudes_through_proj_match_pyproj() {
         }
         let from = t.get(i, "src_crs");
         let got =
-            ringsum::stations::geodetic_lon_lat(from, &[(t.num(i, "x_in"), t.num(i, "y_in"))])
+            ringsum::dem::crs::geodetic_lon_lat(from, &[(t.num(i, "x_in"), t.num(i, "y_in"))])
                 .unwrap_or_else(|e| panic!("{from}: {e:?}"));
         let (lon, lat) = got[0];
         assert_close!(lat, t.num(i, "y_out"), 1e-9, "{from} row {i} latitude");
@@ -149,13 +149,13 @@ fn latitudes_through_proj_match_pyproj() {
     assert_eq!(rows, 25);
     eprintln!("latitude vs pyproj: {rows} points, max |diff| {worst:.2e} deg");
     assert!(matches!(
-        ringsum::stations::geodetic_lon_lat("", &[(0.0, 0.0)]),
-        Err(ringsum::stations::GeodeticError::Crs(_))
+        ringsum::dem::crs::geodetic_lon_lat("", &[(0.0, 0.0)]),
+        Err(ringsum::dem::crs::CrsError::Build { .. })
     ));
     // A point the inverse transverse Mercator cannot take back.
     assert!(matches!(
-        ringsum::stations::geodetic_lon_lat("EPSG:32633", &[(5e5, 5e6), (1e9, 1e12)]),
-        Err(ringsum::stations::GeodeticError::Point { index: 1, .. })
+        ringsum::dem::crs::geodetic_lon_lat("EPSG:32633", &[(5e5, 5e6), (1e9, 1e12)]),
+        Err(ringsum::dem::crs::CrsError::Point { x, .. }) if x == 1e9
     ));
 }
 
@@ -361,10 +361,9 @@ fn full_chain_spherical_grs80_second_order() {
     let dir = TestDir::new();
     let survey = survey_file(&dir);
     let table = table_of(jacksboro_run(&dir, &survey, "5000m", "spherical"));
-    let mut expected: Vec<&str> = TC_COLUMNS[..11].to_vec();
+    let mut expected: Vec<&str> = TC_COLUMNS.to_vec();
     expected.push("latitude_deg");
     expected.extend(CHAIN_COLUMNS);
-    expected.push("coverage");
     assert_eq!(table.headers, expected);
     let worst = check_chain(
         &table,
@@ -407,10 +406,9 @@ fn full_chain_planar_wgs84_first_order_undulation_and_density_column() {
             "gobs",
         ]);
     let table = table_of(cmd);
-    let mut expected: Vec<&str> = TC_COLUMNS[..11].to_vec();
+    let mut expected: Vec<&str> = TC_COLUMNS.to_vec();
     expected.extend(["density_kg_m3", "latitude_deg", "ellipsoidal_height_m"]);
     expected.extend(CHAIN_COLUMNS);
-    expected.push("coverage");
     assert_eq!(table.headers, expected);
     let worst = check_chain(
         &table,
@@ -448,9 +446,8 @@ fn density_column_scales_the_tc_exactly() {
     let mut cmd = jacksboro_run(&dir, &stations, "2000m", "spherical");
     cmd.args(["--density-col", "rho"]);
     let table = table_of(cmd);
-    let mut expected: Vec<&str> = TC_COLUMNS[..11].to_vec();
+    let mut expected: Vec<&str> = TC_COLUMNS.to_vec();
     expected.push("density_kg_m3");
-    expected.push("coverage");
     assert_eq!(table.headers, expected);
     let tc_ref = jacksboro_tc();
     for (i, rho) in densities.iter().enumerate() {
@@ -771,7 +768,7 @@ fn water_density_zero_gives_the_dry_result_on_rough_ground() {
     let zero = run(&["--water-density", "0", "--water-surface", "300"]);
     let fresh = run(&["--water-density", "1000", "--water-surface", "300"]);
     assert_eq!(zero.headers.len(), dry.headers.len() + 1);
-    assert_eq!(zero.headers[zero.col("tc_far_mgal") + 1], "tc_water_mgal");
+    assert_eq!(zero.headers[zero.col("coverage") + 1], "tc_water_mgal");
     for i in 0..3 {
         for col in TC_COLUMNS {
             assert_eq!(zero.get(i, col), dry.get(i, col), "{col}");
@@ -984,19 +981,39 @@ fn stations_under_or_over_water_are_refused() {
 }
 
 #[test]
-fn water_surface_raster_in_another_crs_is_refused() {
+fn a_water_surface_raster_in_another_crs_gives_the_same_water() {
+    // The same level surface as a raster in UTM 33N (the DEM's CRS) and in lon/lat: each
+    // DEM cell centre is moved into the raster's CRS, so both give the level's result.
     let dir = TestDir::new();
-    let surface = dir.write_dem_crs(
-        "surface.tif",
-        &centred_dem(600.0, 20.0, |_| 105.0),
-        "EPSG:32632",
+    let dem = centred_dem(600.0, 20.0, |r| if r < 200.0 { 100.0 } else { 106.0 });
+    let dem_path = dir.write_dem("lake.tif", &dem);
+    let stations = one_station(&dir, 106.0);
+    let level = |surface: &str| {
+        water_run(
+            &dir,
+            &dem_path,
+            &stations,
+            "500m",
+            "planar",
+            &["--water-density", "1000", "--water-surface", surface],
+        )
+    };
+    let flat = level("105");
+    let utm = dir.write_dem("surface_utm.tif", &centred_dem(700.0, 20.0, |_| 105.0));
+    let from_utm = level(utm.to_str().unwrap());
+    // The same surface in lon/lat, 0.0005 degree cells around the DEM (which spans
+    // 14.991-15.009 E, 45.147-45.160 N).
+    let geo = Dem::from_fn("surface", 60, 60, 14.985, 45.168, 0.0005, |_, _| 105.0);
+    let lonlat = dir.write_dem_crs("surface_lonlat.tif", &geo, "EPSG:4326");
+    let from_lonlat = level(lonlat.to_str().unwrap());
+    let w = flat.num(0, "tc_water_mgal");
+    assert!(w < -0.01, "{w}");
+    assert_eq!(
+        from_utm.get(0, "tc_water_mgal"),
+        flat.get(0, "tc_water_mgal")
     );
-    let mut cmd = bad_survey(&dir, "gravity", &["980100.5"]);
-    cmd.args(["--water-density", "1000", "--water-surface"])
-        .arg(&surface);
-    refused(
-        &dir,
-        cmd,
-        &["--water-surface", "not in the CRS", "reproject"],
+    assert_eq!(
+        from_lonlat.get(0, "tc_water_mgal"),
+        flat.get(0, "tc_water_mgal")
     );
 }

@@ -19,11 +19,11 @@ bit-identical for the pinned pyproj wheel (and its bundled PROJ) on one kind of
 machine, and may differ in the last bits of a sample position elsewhere.
 
 Outputs (in --out, default <repo>/demo-dem):
-  valley_30m.tif      30 m cells, 1200 x 1200 (36 km x 36 km), cell = mean of 3x3
+  quillerun_30m.tif      30 m cells, 1200 x 1200 (36 km x 36 km), cell = mean of 3x3
                       point samples of the terrain function
-  regional_500m.tif   500 m cells, 720 x 720 (360 km x 360 km), cell = mean of
+  quillerun_500m.tif   500 m cells, 720 x 720 (360 km x 360 km), cell = mean of
                       10x10 point samples of the same function
-  middle_3s_geographic.tif
+  quillerun_3s_lonlat.tif
                       3 arc-second cells on longitude and latitude (EPSG:4326),
                       1560 x 1080 cells, about 100 km x 100 km around the valley;
                       cell = mean of 4x4 point samples on longitude and latitude,
@@ -63,10 +63,10 @@ COARSE_CELL = 500.0
 COARSE_N = 720  # 360 km x 360 km
 COARSE_SUB = 10  # 10x10 point samples per 500 m cell (50 m spacing)
 
-# The middle grid: longitude and latitude on WGS 84, in whole arc-seconds so that the
+# The 3 arc-second grid: longitude and latitude on WGS 84, in whole arc-seconds so that the
 # edges and the cell size are exact. The valley's centre is at 15 E, 46.9535 N; the
-# valley grid spans about 14.76-15.24 E and 46.79-47.12 N. The edges leave about
-# 31-33 km of middle grid around the valley grid on every side (about 44 km from the
+# 30 m grid spans about 14.76-15.24 E and 46.79-47.12 N. The edges leave about
+# 31-33 km of 3 arc-second grid around the 30 m grid on every side (about 44 km from the
 # closest station), which keeps the file at about 4.3 MB.
 MID_CRS = "EPSG:4326"
 MID_STEP = 3  # arc-seconds
@@ -79,9 +79,9 @@ MID_ROWS = (MID_NORTH - MID_SOUTH) // MID_STEP  # 1080
 MID_SUB = 4  # 4x4 point samples per cell (about 23 m apart north-south, 16 m east-west)
 
 STATION_BOX = 6000.0  # stations lie within +-6 km of the centre in x and y
-DEMO_RADIUS_FINE = 10000.0  # radius the demo uses with valley_30m.tif alone
-DEMO_RADIUS_REGIONAL = 166700.0  # radius the demo uses with the regional DEM
-DEMO_RADIUS_MIDDLE = 40000.0  # a radius that the middle grid holds for every station
+DEMO_RADIUS_FINE = 10000.0  # radius the demo uses with quillerun_30m.tif alone
+DEMO_RADIUS_WIDE = 166700.0  # radius the demo uses with the 500 m DEM
+DEMO_RADIUS_LONLAT = 40000.0  # a radius that the 3 arc-second grid holds for every station
 
 # ---------------------------------------------------------------------------
 # Deterministic primitives
@@ -500,7 +500,7 @@ def _publish(tmp, path):
 
 
 def mid_transform():
-    """Geotransform of the middle grid (degrees)."""
+    """Geotransform of the 3 arc-second grid (degrees)."""
     step = MID_STEP / 3600.0
     return Affine(step, 0.0, MID_WEST / 3600.0, 0.0, -step, MID_NORTH / 3600.0)
 
@@ -746,10 +746,10 @@ def check_lake():
     return float(np.min(parts["dry"][ring] - LAKE_LEVEL))
 
 
-def middle_against_fine(middle, fine):
-    """Middle cells against the mean of the 30 m cells whose centres fall inside them.
+def lonlat_against_fine(lonlat, fine):
+    """Lon/lat cells against the mean of the 30 m cells whose centres fall inside them.
 
-    Only middle cells holding at least 5 such centres (of about 6.5) are compared.
+    Only lonlat cells holding at least 5 such centres (of about 6.5) are compared.
     Returns (cells compared, mean, rms, largest absolute difference) in m.
     """
     west, north = grid_origin(FINE_N, FINE_CELL)
@@ -761,17 +761,17 @@ def middle_against_fine(middle, fine):
     ci = np.floor((np.asarray(lon) * 3600.0 - MID_WEST) / MID_STEP).astype(np.int64)
     ri = np.floor((MID_NORTH - np.asarray(lat) * 3600.0) / MID_STEP).astype(np.int64)
     if ci.min() < 0 or ri.min() < 0 or ci.max() >= MID_COLS or ri.max() >= MID_ROWS:
-        raise RuntimeError("the middle grid does not hold the whole 30 m grid")
+        raise RuntimeError("the 3 arc-second grid does not hold the whole 30 m grid")
     idx = ri * MID_COLS + ci
-    count = np.bincount(idx, minlength=middle.size)
-    total = np.bincount(idx, weights=fine.astype(np.float64).ravel(), minlength=middle.size)
+    count = np.bincount(idx, minlength=lonlat.size)
+    total = np.bincount(idx, weights=fine.astype(np.float64).ravel(), minlength=lonlat.size)
     use = count >= 5
-    diff = middle.astype(np.float64).ravel()[use] - total[use] / count[use]
+    diff = lonlat.astype(np.float64).ravel()[use] - total[use] / count[use]
     return int(use.sum()), diff.mean(), np.sqrt((diff ** 2).mean()), np.abs(diff).max()
 
 
-def middle_margin(rows, radius):
-    """Smallest geodesic distance (m) from a station to the middle grid's edge, less `radius`.
+def lonlat_margin(rows, radius):
+    """Smallest geodesic distance (m) from a station to the 3 arc-second grid's edge, less `radius`.
 
     The edge is sampled every 3 arc-seconds; distances on the WGS 84 ellipsoid (pyproj.Geod).
     """
@@ -787,23 +787,23 @@ def middle_margin(rows, radius):
     for _sid, _cat, x, y, _z in rows:
         slon, slat = to_geo.transform(x, y)
         if not (MID_WEST < slon * 3600.0 < MID_EAST and MID_SOUTH < slat * 3600.0 < MID_NORTH):
-            raise RuntimeError("station %s lies outside the middle grid" % _sid)
+            raise RuntimeError("station %s lies outside the 3 arc-second grid" % _sid)
         _f, _b, dist = geod.inv(np.full_like(blon, slon), np.full_like(blat, slat), blon, blat)
         d = float(np.min(dist))
         worst = d if worst is None else min(worst, d)
     return worst - radius
 
 
-def summarize(fine, coarse, rows, middle=None):
-    print("valley_30m.tif    %d x %d cells of %.0f m, heights %.2f .. %.2f m"
+def summarize(fine, coarse, rows, lonlat=None):
+    print("quillerun_30m.tif    %d x %d cells of %.0f m, heights %.2f .. %.2f m"
           % (fine.shape[1], fine.shape[0], FINE_CELL, fine.min(), fine.max()))
-    print("regional_500m.tif %d x %d cells of %.0f m, heights %.2f .. %.2f m"
+    print("quillerun_500m.tif %d x %d cells of %.0f m, heights %.2f .. %.2f m"
           % (coarse.shape[1], coarse.shape[0], COARSE_CELL, coarse.min(), coarse.max()))
-    if middle is not None:
-        print("middle_3s_geographic.tif %d x %d cells of %d arc-seconds, heights %.2f .. %.2f m"
-              % (middle.shape[1], middle.shape[0], MID_STEP, middle.min(), middle.max()))
-        n, mean, rms, worst = middle_against_fine(middle, fine)
-        print("middle vs means of the 30 m cells centred in them (%d cells): mean %+.3f m, "
+    if lonlat is not None:
+        print("quillerun_3s_lonlat.tif %d x %d cells of %d arc-seconds, heights %.2f .. %.2f m"
+              % (lonlat.shape[1], lonlat.shape[0], MID_STEP, lonlat.min(), lonlat.max()))
+        n, mean, rms, worst = lonlat_against_fine(lonlat, fine)
+        print("lonlat vs means of the 30 m cells centred in them (%d cells): mean %+.3f m, "
               "rms %.3f m, max |%.3f| m" % (n, mean, rms, worst))
     lake_cells = int(np.count_nonzero(fine == np.float32(LAKE_LEVEL)))
     print("lake surface %.2f m over %d fine cells (%.2f km2)"
@@ -908,49 +908,49 @@ def main(argv=None):
 
     fine = block_mean_grid(FINE_N, FINE_CELL, FINE_SUB).astype(np.float32)
     coarse = block_mean_grid(COARSE_N, COARSE_CELL, COARSE_SUB).astype(np.float32)
-    middle = geographic_mean_grid().astype(np.float32)
+    lonlat = geographic_mean_grid().astype(np.float32)
     if not (np.isfinite(fine).all() and np.isfinite(coarse).all()
-            and np.isfinite(middle).all()):
+            and np.isfinite(lonlat).all()):
         raise RuntimeError("terrain function produced a non-finite height")
 
-    write_geotiff(os.path.join(args.out, "valley_30m.tif"), fine,
+    write_geotiff(os.path.join(args.out, "quillerun_30m.tif"), fine,
                   FINE_CELL, "30 m cell means of 3x3 point samples")
-    write_geotiff(os.path.join(args.out, "regional_500m.tif"), coarse,
+    write_geotiff(os.path.join(args.out, "quillerun_500m.tif"), coarse,
                   COARSE_CELL, "500 m cell means of 10x10 point samples")
-    write_geotiff(os.path.join(args.out, "middle_3s_geographic.tif"), middle, None,
+    write_geotiff(os.path.join(args.out, "quillerun_3s_lonlat.tif"), lonlat, None,
                   "3 arc-second cell means of 4x4 point samples", crs=MID_CRS,
                   transform=mid_transform())
     rows = make_stations(fine)
     write_stations(os.path.join(args.out, "stations.csv"), rows)
 
-    verify_geotiff(os.path.join(args.out, "valley_30m.tif"), fine, FINE_CELL)
-    verify_geotiff(os.path.join(args.out, "regional_500m.tif"), coarse, COARSE_CELL)
-    verify_geotiff(os.path.join(args.out, "middle_3s_geographic.tif"), middle, None,
+    verify_geotiff(os.path.join(args.out, "quillerun_30m.tif"), fine, FINE_CELL)
+    verify_geotiff(os.path.join(args.out, "quillerun_500m.tif"), coarse, COARSE_CELL)
+    verify_geotiff(os.path.join(args.out, "quillerun_3s_lonlat.tif"), lonlat, None,
                    epsg=4326, transform=mid_transform())
     spare = verify_stations(os.path.join(args.out, "stations.csv"), rows, fine)
     cw, cn = grid_origin(COARSE_N, COARSE_CELL)
     spare_reg = min(min(r[2] - cw, cw + COARSE_N * COARSE_CELL - r[2],
                         cn - r[3], r[3] - (cn - COARSE_N * COARSE_CELL)) for r in rows)
-    spare_reg -= DEMO_RADIUS_REGIONAL
+    spare_reg -= DEMO_RADIUS_WIDE
     if spare_reg < 0.0:
-        raise RuntimeError("a %g m radius leaves the 500 m grid" % DEMO_RADIUS_REGIONAL)
-    spare_mid = middle_margin(rows, DEMO_RADIUS_MIDDLE)
+        raise RuntimeError("a %g m radius leaves the 500 m grid" % DEMO_RADIUS_WIDE)
+    spare_mid = lonlat_margin(rows, DEMO_RADIUS_LONLAT)
     if spare_mid < 0.0:
-        raise RuntimeError("a %g m radius leaves the middle grid" % DEMO_RADIUS_MIDDLE)
+        raise RuntimeError("a %g m radius leaves the 3 arc-second grid" % DEMO_RADIUS_LONLAT)
 
     print("read back: CRS, geotransform, nodata, compression and all values check out")
-    print("radius %.1f km fits valley_30m.tif with %.2f km to spare; %.1f km fits "
-          "regional_500m.tif with %.2f km to spare"
-          % (DEMO_RADIUS_FINE / 1000, spare / 1000, DEMO_RADIUS_REGIONAL / 1000,
+    print("radius %.1f km fits quillerun_30m.tif with %.2f km to spare; %.1f km fits "
+          "quillerun_500m.tif with %.2f km to spare"
+          % (DEMO_RADIUS_FINE / 1000, spare / 1000, DEMO_RADIUS_WIDE / 1000,
              spare_reg / 1000))
-    print("radius %.1f km fits middle_3s_geographic.tif with %.2f km to spare (geodesic)"
-          % (DEMO_RADIUS_MIDDLE / 1000, spare_mid / 1000))
+    print("radius %.1f km fits quillerun_3s_lonlat.tif with %.2f km to spare (geodesic)"
+          % (DEMO_RADIUS_LONLAT / 1000, spare_mid / 1000))
     print("lake edge margin above water: %.2f m" % margin)
-    summarize(fine, coarse, rows, middle)
+    summarize(fine, coarse, rows, lonlat)
     if args.with_categories:
         for sid, cat, x, y, z in rows:
             print("  %s %-12s %.2f %.2f %.2f" % (sid, cat, x, y, z))
-    for name in ("valley_30m.tif", "middle_3s_geographic.tif", "regional_500m.tif",
+    for name in ("quillerun_30m.tif", "quillerun_3s_lonlat.tif", "quillerun_500m.tif",
                  "stations.csv"):
         p = os.path.join(args.out, name)
         print("%s  %8d bytes  %s" % (sha256(p), os.path.getsize(p), name))

@@ -5,8 +5,10 @@
 //! `[x_left + col*dx, x_left + (col+1)*dx] x [y_top - (row+1)*dy, y_top - row*dy]`, and
 //! its height is the DEM value at its centre; row 0 is the northern edge.
 
+#[cfg(feature = "io")]
+pub mod crs;
+#[cfg(feature = "io")]
 pub mod read;
-pub mod write;
 
 /// A north-up elevation grid with square or rectangular cells.
 #[derive(Debug, Clone)]
@@ -32,7 +34,7 @@ pub struct Dem {
     /// Projected (metres) or geographic (degrees of longitude and latitude) grid.
     pub kind: GridKind,
     /// Share of each cell this DEM contributes, 0..1 (`None`: all of every cell). A finer
-    /// DEM given before this one takes the rest (see [`crate::engine::layers`]).
+    /// DEM given before this one takes the rest (see [`crate::engine::set`]).
     pub weights: Option<Vec<f32>>,
 }
 
@@ -217,11 +219,26 @@ impl Dem {
         x >= self.x_left && x <= self.x_right() && y >= self.y_bottom() && y <= self.y_top
     }
 
-    /// Distance from the point to the nearest edge of the grid, m (negative outside).
+    /// Distance from the point to the nearest edge of the grid, m (negative outside); on
+    /// a geographic grid measured with the metres per degree at the point.
     pub fn distance_inside(&self, x: f64, y: f64) -> f64 {
-        let dx = (x - self.x_left).min(self.x_right() - x);
-        let dy = (y - self.y_bottom()).min(self.y_top - y);
+        let (mx, my) = self.metres_per_unit(y);
+        let dx = (x - self.x_left).min(self.x_right() - x) * mx;
+        let dy = (y - self.y_bottom()).min(self.y_top - y) * my;
         dx.min(dy)
+    }
+
+    /// Metres per grid unit east and north at grid northing (or latitude) `y`: 1 on a
+    /// projected grid; N cos(phi) and M per radian, in degrees, on a geographic one.
+    pub fn metres_per_unit(&self, y: f64) -> (f64, f64) {
+        match self.kind {
+            GridKind::Projected => (1.0, 1.0),
+            GridKind::Geographic(ell) => {
+                let phi = y.clamp(-90.0, 90.0).to_radians();
+                let (n, m) = ell.radii(phi);
+                (n * phi.cos() * 1f64.to_radians(), m * 1f64.to_radians())
+            }
+        }
     }
 
     /// Bilinear height at `(x, y)` from the four surrounding cell centres, m.

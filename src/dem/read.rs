@@ -53,10 +53,18 @@ fn vertical_unit_factor(unit: &str) -> Option<f64> {
     }
 }
 
+/// Where a header's heights come from.
+enum Source {
+    /// One file.
+    File(Dataset),
+    /// Tiles of one grid, each with its cell offset `(col, row)` in the mosaic.
+    Tiles(Vec<(DemHeader, usize, usize)>),
+}
+
 /// A DEM file opened and checked, before its heights are read.
 pub struct DemHeader {
     path: String,
-    ds: Dataset,
+    source: Source,
     /// Columns and rows of the whole file.
     pub cols: usize,
     pub rows: usize,
@@ -67,6 +75,13 @@ pub struct DemHeader {
     /// Name of the vertical CRS when the file declares one (a compound CRS).
     pub vertical_crs: Option<String>,
     unit_factor: f64,
+    /// Declared nodata value of band 1.
+    nodata: Option<f64>,
+    /// Band scale and offset (raw value times scale plus offset).
+    scale: f64,
+    offset: f64,
+    /// Band 1's unit as declared ("" when none).
+    unit: String,
 }
 
 impl DemHeader {
@@ -94,6 +109,10 @@ impl DemHeader {
             path: p.clone(),
             detail: e.to_string(),
         })?;
+        DemHeader::from_dataset(p, ds, heights)
+    }
+
+    fn from_dataset(p: String, ds: Dataset, heights: bool) -> Result<DemHeader, DemError> {
         let bands = ds.raster_count();
         if bands != 1 {
             return Err(DemError::Bands { path: p, bands });
@@ -155,13 +174,14 @@ impl DemHeader {
             None
         };
         let crs_wkt = srs.to_wkt().unwrap_or_default();
-        let unit = ds
-            .rasterband(1)
-            .map_err(|e| DemError::Read {
-                path: p.clone(),
-                detail: e.to_string(),
-            })?
-            .unit();
+        let band = ds.rasterband(1).map_err(|e| DemError::Read {
+            path: p.clone(),
+            detail: e.to_string(),
+        })?;
+        let unit = band.unit();
+        let nodata = band.no_data_value();
+        let scale = band.scale().unwrap_or(1.0);
+        let offset = band.offset().unwrap_or(0.0);
         let unit_factor = if !heights {
             Some(1.0)
         } else {
@@ -169,11 +189,11 @@ impl DemHeader {
         };
         let unit_factor = unit_factor.ok_or_else(|| DemError::VerticalUnit {
             path: p.clone(),
-            unit,
+            unit: unit.clone(),
         })?;
         Ok(DemHeader {
             path: p,
-            ds,
+            source: Source::File(ds),
             cols,
             rows,
             geotransform: gt,
@@ -181,7 +201,121 @@ impl DemHeader {
             crs_wkt,
             vertical_crs,
             unit_factor,
+            nodata,
+            scale,
+            offset,
+            unit,
         })
+    }
+
+    /// The path (or the list of tiles) this header reads.
+    pub fn path(&self) -> &str {
+        &self.path
+    }
+
+    /// Whether `other` is a tile of the same grid: the same CRS, cell size, cell
+    /// alignment, nodata, unit, scale and offset, so that the two can be read as one
+    /// mosaic.
+    pub fn same_grid(&self, other: &DemHeader) -> bool {
+        let (a, b) = (self.geotransform, other.geotransform);
+        let close = |u: f64, v: f64| (u - v).abs() <= 1e-9 * u.abs().max(v.abs());
+        let aligned = |o1: f64, o2: f64, step: f64| {
+            let k = (o2 - o1) / step;
+            (k - k.round()).abs() < 1e-6
+        };
+        close(a[1], b[1])
+            && close(a[5], b[5])
+            && aligned(a[0], b[0], a[1])
+            && aligned(a[3], b[3], a[5])
+            && self.kind == other.kind
+            && self.nodata == other.nodata
+            && self.scale == other.scale
+            && self.offset == other.offset
+            && self.unit == other.unit
+            && self.vertical_crs == other.vertical_crs
+            && super::crs::same_crs(&self.crs_wkt, &other.crs_wkt)
+    }
+
+    /// One header over several tiles of the same grid (see [`DemHeader::same_grid`]):
+    /// a mosaic whose extent is the tiles' union, nodata where no tile is; where tiles
+    /// overlap, the later one's values are used.
+    pub fn mosaic(tiles: Vec<DemHeader>) -> DemHeader {
+        if tiles.len() == 1 {
+            return tiles.into_iter().next().expect("one tile");
+        }
+        let name = tiles
+            .iter()
+            .map(|t| t.path.as_str())
+            .collect::<Vec<_>>()
+            .join(" + ");
+        let g = tiles[0].geotransform;
+        let x0 = tiles
+            .iter()
+            .map(|t| t.geotransform[0])
+            .fold(f64::INFINITY, f64::min);
+        let y0 = tiles
+            .iter()
+            .map(|t| t.geotransform[3])
+            .fold(f64::NEG_INFINITY, f64::max);
+        let offset = |t: &DemHeader| {
+            (
+                ((t.geotransform[0] - x0) / g[1]).round() as usize,
+                ((t.geotransform[3] - y0) / g[5]).round() as usize,
+            )
+        };
+        let cols = tiles
+            .iter()
+            .map(|t| offset(t).0 + t.cols)
+            .max()
+            .unwrap_or(0);
+        let rows = tiles
+            .iter()
+            .map(|t| offset(t).1 + t.rows)
+            .max()
+            .unwrap_or(0);
+        let first = &tiles[0];
+        let (kind, crs_wkt, vertical_crs) = (
+            first.kind,
+            first.crs_wkt.clone(),
+            first.vertical_crs.clone(),
+        );
+        let (unit_factor, nodata, scale, offset_v, unit) = (
+            first.unit_factor,
+            first.nodata,
+            first.scale,
+            first.offset,
+            first.unit.clone(),
+        );
+        let placed = tiles
+            .into_iter()
+            .map(|t| {
+                let (c, r) = offset(&t);
+                (t, c, r)
+            })
+            .collect();
+        DemHeader {
+            path: name,
+            source: Source::Tiles(placed),
+            cols,
+            rows,
+            geotransform: [x0, g[1], 0.0, y0, 0.0, g[5]],
+            kind,
+            crs_wkt,
+            vertical_crs,
+            unit_factor,
+            nodata,
+            scale,
+            offset: offset_v,
+            unit,
+        }
+    }
+
+    /// Number of files behind this header (tiles of a mosaic, or 1).
+    pub fn files(&self) -> usize {
+        match &self.source {
+            Source::File(_) => 1,
+            Source::Tiles(t) => t.len(),
+        }
     }
 
     /// Cell size in metres (the larger side; at the middle latitude of a geographic grid).
@@ -227,11 +361,60 @@ impl DemHeader {
     /// Reads the heights of the whole file, or of a cell window `(c0, r0, cols, rows)`.
     ///
     /// Nodata values (and NaN) become `NaN`; band scale and offset are applied, and
-    /// heights in feet are converted to metres.
+    /// heights in feet are converted to metres. A mosaic reads each tile's part of the
+    /// window.
     pub fn read(&self, window: Option<(usize, usize, usize, usize)>) -> Result<Dem, DemError> {
-        let p = &self.path;
         let (c0, r0, cols, rows) = window.unwrap_or((0, 0, self.cols, self.rows));
-        let band = self.ds.rasterband(1).map_err(|e| DemError::Read {
+        let heights = self.read_heights(c0, r0, cols, rows)?;
+        if heights.iter().all(|h| h.is_nan()) {
+            return Err(DemError::AllNodata {
+                path: self.path.clone(),
+            });
+        }
+        let mut dem = self.empty_dem(c0, r0, cols, rows);
+        dem.heights = heights;
+        Ok(dem)
+    }
+
+    fn read_heights(
+        &self,
+        c0: usize,
+        r0: usize,
+        cols: usize,
+        rows: usize,
+    ) -> Result<Vec<f32>, DemError> {
+        let p = &self.path;
+        let ds = match &self.source {
+            Source::File(ds) => ds,
+            Source::Tiles(tiles) => {
+                let mut heights = vec![f32::NAN; cols * rows];
+                for (tile, tc, tr) in tiles {
+                    // The window in the tile's cells.
+                    let a0 = c0.max(*tc);
+                    let a1 = (c0 + cols).min(tc + tile.cols);
+                    let b0 = r0.max(*tr);
+                    let b1 = (r0 + rows).min(tr + tile.rows);
+                    if a1 <= a0 || b1 <= b0 {
+                        continue;
+                    }
+                    let part = tile.read_heights(a0 - tc, b0 - tr, a1 - a0, b1 - b0)?;
+                    for (k, row) in (b0..b1).enumerate() {
+                        let dst = (row - r0) * cols + (a0 - c0);
+                        let src = k * (a1 - a0);
+                        for (d, &v) in heights[dst..dst + (a1 - a0)]
+                            .iter_mut()
+                            .zip(&part[src..src + (a1 - a0)])
+                        {
+                            if !v.is_nan() {
+                                *d = v;
+                            }
+                        }
+                    }
+                }
+                return Ok(heights);
+            }
+        };
+        let band = ds.rasterband(1).map_err(|e| DemError::Read {
             path: p.clone(),
             detail: e.to_string(),
         })?;
@@ -243,9 +426,7 @@ impl DemHeader {
                 path: p.clone(),
                 detail: e.to_string(),
             })?;
-        let nodata = band.no_data_value();
-        let scale = band.scale().unwrap_or(1.0);
-        let offset = band.offset().unwrap_or(0.0);
+        let (nodata, scale, offset) = (self.nodata, self.scale, self.offset);
         let (_, mut heights) = buffer.into_shape_and_vec();
         let nodata_f32 = nodata.map(|nd| nd as f32);
         let identity = scale == 1.0 && offset == 0.0 && self.unit_factor == 1.0;
@@ -260,29 +441,11 @@ impl DemHeader {
                 *h = ((*h as f64 * scale + offset) * self.unit_factor) as f32;
             }
         }
-        if heights.iter().all(|h| h.is_nan()) {
-            return Err(DemError::AllNodata { path: p.clone() });
-        }
-        let mut dem = self.empty_dem(c0, r0, cols, rows);
-        dem.heights = heights;
-        Ok(dem)
+        Ok(heights)
     }
 }
 
 /// Reads band 1 of a raster GDAL can open into a [`Dem`] (see [`DemHeader`]).
 pub fn read_dem(path: &Path) -> Result<Dem, DemError> {
     DemHeader::open(path)?.read(None)
-}
-
-/// Whether two CRS definitions (WKT, EPSG code or PROJ string) describe the same CRS
-/// (GDAL's `OSRIsSame`); `false` when either cannot be parsed.
-pub fn same_crs(a: &str, b: &str) -> bool {
-    use gdal::spatial_ref::SpatialRef;
-    match (
-        SpatialRef::from_definition(a),
-        SpatialRef::from_definition(b),
-    ) {
-        (Ok(a), Ok(b)) => a == b,
-        _ => false,
-    }
 }

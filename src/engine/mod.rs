@@ -17,10 +17,11 @@ pub mod blocks;
 pub mod exact;
 pub mod frame;
 pub mod inner;
-pub mod layers;
 pub mod pyramid;
 pub mod region;
+pub mod run;
 pub mod sectors;
+pub mod set;
 
 use crate::dem::{Dem, GridKind};
 use crate::engine::pyramid::Pyramid;

@@ -5,8 +5,8 @@
 //! Each integration test binary uses a different part of this module.
 #![allow(dead_code)]
 
-use ringsum::dem::write::write_geotiff;
 use ringsum::dem::Dem;
+use ringsum::output::geotiff::write_dem;
 use std::path::{Path, PathBuf};
 
 /// The CRS the synthetic test DEMs are written in (WGS 84 / UTM zone 33N).
@@ -80,7 +80,7 @@ impl TestDir {
     /// Writes `dem` as a GeoTIFF in the CRS `crs` and returns its path.
     pub fn write_dem_crs(&self, name: &str, dem: &Dem, crs: &str) -> PathBuf {
         let path = self.join(name);
-        write_geotiff(dem, &path, Some(crs)).expect("write the test DEM");
+        write_dem(dem, &path, Some(crs)).expect("write the test DEM");
         path
     }
 

@@ -26,6 +26,8 @@
 //! the CIELAB colour difference (CIE76) of successive sixteenths of the scale stays
 //! within a factor 1.7 of each other.
 
+use super::files::{check_folder, write_atomically, Partial};
+use crate::analysis::checks::quantile;
 use anyhow::{bail, Context};
 use plotters::coord::Shift;
 use plotters::element::DashedPathElement;
@@ -35,7 +37,7 @@ use std::path::{Path, PathBuf};
 use std::sync::Once;
 
 /// DejaVu Sans 2.37 (see `assets/fonts/LICENSE-DejaVu.txt`).
-const FONT: &[u8] = include_bytes!("../assets/fonts/DejaVuSans.ttf");
+const FONT: &[u8] = include_bytes!("../../assets/fonts/DejaVuSans.ttf");
 
 /// The font family every plot uses.
 pub const FAMILY: &str = "sans-serif";
@@ -188,17 +190,7 @@ pub fn check_plot_target(path: &Path, option: &str, png_only: bool) -> anyhow::R
             path.display()
         ),
     };
-    let dir = match path.parent() {
-        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
-        _ => PathBuf::from("."),
-    };
-    if !dir.is_dir() {
-        bail!(
-            "{option} {}: the folder {} does not exist; create it first",
-            path.display(),
-            dir.display()
-        );
-    }
+    check_folder(path, option)?;
     Ok(PlotTarget {
         path: path.to_path_buf(),
         format,
@@ -228,18 +220,6 @@ pub trait Figure {
         DB::ErrorType: 'static;
 }
 
-/// Gives a finished temporary file the permissions of an ordinary new file (rw-r--r--),
-/// not the owner-only ones temporary files are created with.
-pub fn make_readable(file: &std::fs::File) {
-    #[cfg(unix)]
-    {
-        use std::os::unix::fs::PermissionsExt;
-        let _ = file.set_permissions(std::fs::Permissions::from_mode(0o644));
-    }
-    #[cfg(not(unix))]
-    let _ = file;
-}
-
 /// Renders `figure` at `size` pixels to its target (through a temporary file renamed at
 /// the end).
 pub fn write_figure(
@@ -249,38 +229,17 @@ pub fn write_figure(
 ) -> anyhow::Result<()> {
     register_fonts();
     let path = &target.path;
-    let dir = match path.parent() {
-        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
-        _ => PathBuf::from("."),
-    };
     match target.format {
         PlotFormat::Png => {
-            let tmp = tempfile::Builder::new()
-                .prefix(".ringsum-")
-                .suffix(".png")
-                .tempfile_in(&dir)
-                .with_context(|| {
-                    format!(
-                        "{}: cannot create a file in {}",
-                        path.display(),
-                        dir.display()
-                    )
-                })?;
+            let partial = Partial::start(path, ".png")?;
             {
-                let root = BitMapBackend::new(tmp.path(), size).into_drawing_area();
+                let root = BitMapBackend::new(partial.temp_path(), size).into_drawing_area();
                 root.fill(&WHITE)?;
                 figure.draw(&root)?;
                 root.present()
                     .with_context(|| format!("{}: writing the picture failed", path.display()))?;
             }
-            make_readable(tmp.as_file());
-            tmp.persist(path).map_err(|e| {
-                anyhow::anyhow!(
-                    "{}: cannot move the finished picture into place ({})",
-                    path.display(),
-                    e.error
-                )
-            })?;
+            partial.commit()
         }
         PlotFormat::Svg => {
             let mut text = String::new();
@@ -290,30 +249,9 @@ pub fn write_figure(
                 figure.draw(&root)?;
                 root.present()?;
             }
-            let mut tmp = tempfile::Builder::new()
-                .prefix(".ringsum-")
-                .suffix(".svg")
-                .tempfile_in(&dir)
-                .with_context(|| {
-                    format!(
-                        "{}: cannot create a file in {}",
-                        path.display(),
-                        dir.display()
-                    )
-                })?;
-            std::io::Write::write_all(&mut tmp, text.as_bytes())
-                .with_context(|| format!("{}: writing the picture failed", path.display()))?;
-            make_readable(tmp.as_file());
-            tmp.persist(path).map_err(|e| {
-                anyhow::anyhow!(
-                    "{}: cannot move the finished picture into place ({})",
-                    path.display(),
-                    e.error
-                )
-            })?;
+            write_atomically(path, text.as_bytes())
         }
     }
-    Ok(())
 }
 
 /// Text style of plot titles.
@@ -380,17 +318,6 @@ pub fn padded_range(values: impl IntoIterator<Item = f64>, pad: f64) -> (f64, f6
     }
     let m = (hi - lo) * pad;
     (lo - m, hi + m)
-}
-
-/// Value at fraction `q` (0..1) of sorted finite values, linearly interpolated.
-pub fn quantile(sorted: &[f64], q: f64) -> f64 {
-    if sorted.is_empty() {
-        return f64::NAN;
-    }
-    let pos = q.clamp(0.0, 1.0) * (sorted.len() - 1) as f64;
-    let i = pos.floor() as usize;
-    let j = (i + 1).min(sorted.len() - 1);
-    sorted[i] + (pos - i as f64) * (sorted[j] - sorted[i])
 }
 
 // ---------------------------------------------------------------------------------------

@@ -5,6 +5,8 @@
 //! the DEM's CRS unless a station CRS is given; longitude/latitude columns (`lon`, `lat`)
 //! imply EPSG:4326. Heights are used as given: they must be on the DEM's vertical datum.
 
+use crate::config::{check_density, ColumnChoice};
+use crate::dem::crs::Transform;
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 
@@ -62,15 +64,6 @@ pub enum StationError {
     Crs { path: String, detail: String },
 }
 
-/// Column names given on the command line; `None` means "find it by its common names".
-#[derive(Debug, Clone, Default)]
-pub struct ColumnChoice {
-    pub station: Option<String>,
-    pub x: Option<String>,
-    pub y: Option<String>,
-    pub elev: Option<String>,
-}
-
 /// One station, with coordinates in the DEM's CRS.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Station {
@@ -116,6 +109,30 @@ impl StationTable {
             option,
             found: self.headers.join(", "),
         })
+    }
+
+    /// The density of every station from the column `name` (kg/m3, each checked like
+    /// `--density`); an empty field takes `default_kg_m3`.
+    pub fn density_column(&self, name: &str, default_kg_m3: f64) -> anyhow::Result<Vec<f64>> {
+        let col = self.named_column(name, "--density-col")?;
+        let mut out = Vec::with_capacity(self.stations.len());
+        for (i, s) in self.stations.iter().enumerate() {
+            let value = match self.optional_number(i, col)? {
+                None => default_kg_m3,
+                Some(v) => {
+                    let place = format!(
+                        "{} line {}: station {}: density (column '{}')",
+                        self.path.display(),
+                        s.line,
+                        s.id,
+                        self.headers[col]
+                    );
+                    check_density(v, &place)?
+                }
+            };
+            out.push(value);
+        }
+        Ok(out)
     }
 
     /// Parses column `col` of station `i` as a finite number; empty fields give `None`.
@@ -339,95 +356,22 @@ fn transform_stations(stations: &mut [Station], from: &str, to_wkt: &str) -> Res
             "the stations are in {from} but the DEM has no CRS to convert them to; give the DEM a CRS"
         ));
     }
-    let transform = proj::Proj::new_known_crs(from, to_wkt, None).map_err(|e| {
-        format!("PROJ cannot build a transformation from the station CRS '{from}' to the DEM's CRS ({e}); give an EPSG code such as EPSG:32633 or a valid PROJ string")
+    let transform = Transform::between(from, to_wkt, from, "the DEM's CRS").map_err(|e| {
+        format!(
+            "{e}; give an EPSG code such as EPSG:32633 or a valid PROJ string with --stations-crs"
+        )
     })?;
     for s in stations.iter_mut() {
-        let (x, y) = transform.convert(s.input_xy).map_err(|e| {
+        let (x, y) = transform.convert(s.input_xy.0, s.input_xy.1).map_err(|e| {
             format!(
                 "line {}: station {}: coordinates ({}, {}) cannot be converted from {from} ({e}); check the coordinates and the station CRS",
                 s.line, s.id, s.input_xy.0, s.input_xy.1
             )
         })?;
-        if !x.is_finite() || !y.is_finite() {
-            return Err(format!(
-                "line {}: station {}: coordinates ({}, {}) have no position in the DEM's CRS; check them and the station CRS",
-                s.line, s.id, s.input_xy.0, s.input_xy.1
-            ));
-        }
         s.x = x;
         s.y = y;
     }
     Ok(())
-}
-
-/// Why a geodetic position could not be derived.
-#[derive(Debug, Clone, PartialEq)]
-pub enum GeodeticError {
-    /// No transformation to EPSG:4326 exists for the CRS.
-    Crs(String),
-    /// Point `index` has no geodetic position.
-    Point { index: usize, detail: String },
-}
-
-/// Geodetic longitude and latitude (degrees, WGS 84, east and north positive) of points
-/// given in the CRS `from` (EPSG code, PROJ string or WKT), through PROJ.
-///
-/// The transformation goes to EPSG:4326 with PROJ's normalised axis order (longitude
-/// first). Latitudes on WGS 84 and on GRS80 differ by less than 1e-8 degrees, so they serve
-/// normal gravity on either ellipsoid.
-pub fn geodetic_lon_lat(
-    from: &str,
-    points: &[(f64, f64)],
-) -> Result<Vec<(f64, f64)>, GeodeticError> {
-    if from.trim().is_empty() {
-        return Err(GeodeticError::Crs("the CRS is unknown".into()));
-    }
-    let transform = proj::Proj::new_known_crs(from, "EPSG:4326", None).map_err(|e| {
-        GeodeticError::Crs(format!(
-            "PROJ cannot build a transformation from it to EPSG:4326 ({e})"
-        ))
-    })?;
-    points
-        .iter()
-        .enumerate()
-        .map(|(index, &(x, y))| {
-            let failed = |detail: String| GeodeticError::Point { index, detail };
-            let (lon, lat) = transform
-                .convert((x, y))
-                .map_err(|e| failed(format!("PROJ cannot convert it ({e})")))?;
-            if !lon.is_finite() || !lat.is_finite() || lat.abs() > 90.0 {
-                return Err(failed(format!("PROJ gives ({lon}, {lat})")));
-            }
-            Ok((lon, lat))
-        })
-        .collect()
-}
-
-/// Geodetic latitude of every station (degrees, WGS 84), from its position in the DEM's
-/// CRS (`dem_crs_wkt`) through PROJ.
-pub fn geodetic_latitudes(
-    table: &StationTable,
-    dem_crs_wkt: &str,
-) -> Result<Vec<f64>, StationError> {
-    let points: Vec<(f64, f64)> = table.stations.iter().map(|s| (s.x, s.y)).collect();
-    geodetic_lon_lat(dem_crs_wkt, &points)
-        .map(|lon_lat| lon_lat.into_iter().map(|(_, lat)| lat).collect())
-        .map_err(|e| StationError::Crs {
-            path: table.path.display().to_string(),
-            detail: match e {
-                GeodeticError::Crs(detail) => format!(
-                    "the stations' latitudes, which normal gravity needs, cannot be derived from the DEM's CRS: {detail}; give the DEM a CRS that PROJ knows"
-                ),
-                GeodeticError::Point { index, detail } => {
-                    let s = &table.stations[index];
-                    format!(
-                        "line {}: station {}: its position ({}, {}) in the DEM's CRS has no geodetic latitude ({detail}), which normal gravity needs; check the coordinates and the station CRS",
-                        s.line, s.id, s.x, s.y
-                    )
-                }
-            },
-        })
 }
 
 #[cfg(test)]

@@ -1,10 +1,12 @@
 //! `ringsum audit`: checks the inputs before a long run, and compares with a legacy TC.
 //!
-//! Per station it reports the DEM height and slope there, the station-minus-DEM height
-//! (and how far the station would have to move on that slope to explain it), the distance
-//! to the DEM's edge, the coverage of the outer-radius disc, the other stations within the
+//! Per station it reports the DEM height and slope there (from the finest DEM with data
+//! at the station), the station-minus-DEM height (and how far the station would have to
+//! move on that slope to explain it), the distance to the nearest edge of the DEMs, the
+//! coverage of the outer-radius disc by all DEMs, the other stations within the
 //! near-duplicate distance, and a list of problem codes. With a legacy TC column it runs
-//! the engine on every station on DEM data and reports new minus legacy per station, with
+//! the same pipeline as `correct` on every station on DEM data (so the new TC is
+//! `correct`'s, with every input kind) and reports new minus legacy per station, with
 //! statistics, the worst stations, a scatter plot and a histogram; with the Hammer preset
 //! and per-zone legacy columns, zone by zone as well.
 //!
@@ -12,234 +14,33 @@
 //! inputs that cannot be read at all (or legacy values that are not numbers, unless
 //! `--skip-bad-legacy`) end the run, before anything is written.
 
-use crate::app::{load_inputs, with_threads, Settings};
-use crate::cli::InputArgs;
-use crate::engine::pyramid::Pyramid;
-use crate::engine::{coverage_with_pyramid, Engine, Point, StationResult};
-use crate::output::{check_target, fixed, write_table, Table, Target};
-use crate::plot::{
-    parse_plot_size, quantile, write_figure, HistogramFigure, PlotFormat, PlotTarget,
-    ScatterFigure, ZoneFigure,
+use crate::analysis::checks::{
+    check_duplicate_ids, legacy_values, near_pairs, parse_threshold, stats, LegacyColumn,
+    FLAT_SLOPE_DEG, LEGACY_NAMES, LEGACY_ZONE_PREFIX,
 };
-use crate::sens_cli::{AuditArgs, PlotFormatArg};
-use crate::stations::StationTable;
-use crate::units::{format_length, parse_length_m, to_mgal, G};
+use crate::cli::{AuditArgs, PlotFormatArg};
+use crate::compute::{self, Work};
+use crate::config::{RunSettings, TcSettings, ZonesChoice};
+use crate::engine::Point;
+use crate::inputs::Opened;
+use crate::output::files::TableTarget;
+use crate::output::plot::{
+    parse_plot_size, write_figure, HistogramFigure, PlotFormat, PlotTarget, ScatterFigure,
+    ZoneFigure,
+};
+use crate::output::station_table::{zone_columns, StationColumns};
+use crate::output::table::{from_units, to_units, Cell, Table};
+use crate::results::PointTc;
+use crate::text::list_some;
+use crate::units::{format_length, to_mgal};
 use anyhow::{bail, Context};
-use std::collections::HashMap;
-
-/// Names tried, in order, for the legacy TC column (case-insensitive).
-pub const LEGACY_NAMES: &[&str] = &[
-    "legacy_tc",
-    "legacy_tc_mgal",
-    "old_tc",
-    "old_tc_mgal",
-    "tc_old",
-    "tc_old_mgal",
-    "tc_legacy",
-    "tc_legacy_mgal",
-];
-
-/// Prefix of the per-zone legacy columns of the Hammer preset: `legacy_tc_B` ... `legacy_tc_M`
-/// (and `legacy_tc_A` for the station zone).
-pub const LEGACY_ZONE_PREFIX: &str = "legacy_tc_";
-
-/// Slopes below this (degrees) explain no height mismatch by position.
-const FLAT_SLOPE_DEG: f64 = 0.5;
-
-/// Problem codes of the report, in the order they are listed.
-pub const PROBLEMS: [&str; 6] = [
-    "outside_dem",
-    "on_nodata",
-    "partial_coverage",
-    "height_mismatch",
-    "near_duplicate",
-    "bad_legacy",
-];
-
-/// A length option that may be zero (`allow_zero`) or must be positive.
-fn parse_threshold(text: &str, option: &str, allow_zero: bool) -> anyhow::Result<f64> {
-    let v = parse_length_m(text).map_err(|e| anyhow::anyhow!("{option}: {e}"))?;
-    if v < 0.0 || (!allow_zero && v == 0.0) {
-        bail!(
-            "{option} {text}: give a {} length, e.g. {}",
-            if allow_zero {
-                "non-negative"
-            } else {
-                "positive"
-            },
-            if allow_zero { "1m" } else { "5m" }
-        );
-    }
-    Ok(v)
-}
-
-/// Lists up to eight items and how many more there are.
-fn list_some(items: &[String]) -> String {
-    let shown: Vec<&str> = items.iter().take(8).map(String::as_str).collect();
-    let mut s = shown.join("; ");
-    if items.len() > 8 {
-        s.push_str(&format!("; and {} more", items.len() - 8));
-    }
-    s
-}
-
-/// Refuses a station file with repeated ids, listing all of them (the station reader
-/// stops at the first).
-pub fn check_duplicate_ids(input: &InputArgs) -> anyhow::Result<()> {
-    let path = &input.stations;
-    let Ok(mut reader) = csv::ReaderBuilder::new()
-        .flexible(true)
-        .trim(csv::Trim::All)
-        .from_path(path)
-    else {
-        return Ok(()); // the station reader reports unreadable files
-    };
-    let Ok(headers) = reader.headers().cloned() else {
-        return Ok(());
-    };
-    let names: Vec<String> = match &input.station_col {
-        Some(n) => vec![n.clone()],
-        None => crate::stations::STATION_NAMES
-            .iter()
-            .map(|s| s.to_string())
-            .collect(),
-    };
-    let Some(col) = names.iter().find_map(|n| {
-        headers
-            .iter()
-            .position(|h| h.trim_start_matches('\u{feff}').eq_ignore_ascii_case(n))
-    }) else {
-        return Ok(());
-    };
-    let mut lines: HashMap<String, Vec<u64>> = HashMap::new();
-    let mut order = Vec::new();
-    for record in reader.records().flatten() {
-        let id = record.get(col).unwrap_or("").trim().to_string();
-        if id.is_empty() {
-            continue;
-        }
-        let line = record.position().map(|p| p.line()).unwrap_or(0);
-        let entry = lines.entry(id.clone()).or_default();
-        if entry.is_empty() {
-            order.push(id);
-        }
-        entry.push(line);
-    }
-    let repeated: Vec<String> = order
-        .iter()
-        .filter(|id| lines[*id].len() > 1)
-        .map(|id| {
-            let l: Vec<String> = lines[id].iter().map(|n| n.to_string()).collect();
-            format!("{id} (lines {})", l.join(", "))
-        })
-        .collect();
-    if !repeated.is_empty() {
-        bail!(
-            "{}: {} station id(s) are used more than once: {}; give each station a unique id (a re-occupied station needs its own id)",
-            path.display(),
-            repeated.len(),
-            list_some(&repeated)
-        );
-    }
-    Ok(())
-}
-
-/// Pairs of stations within `distance` (horizontal, m) of each other, as
-/// `(i, j, distance)` with `i < j`.
-pub fn near_pairs(xy: &[(f64, f64)], distance: f64) -> Vec<(usize, usize, f64)> {
-    let mut order: Vec<usize> = (0..xy.len()).collect();
-    order.sort_by(|&a, &b| xy[a].0.total_cmp(&xy[b].0));
-    let mut pairs = Vec::new();
-    for (k, &i) in order.iter().enumerate() {
-        for &j in &order[k + 1..] {
-            if xy[j].0 - xy[i].0 > distance {
-                break;
-            }
-            let d = (xy[j].0 - xy[i].0).hypot(xy[j].1 - xy[i].1);
-            if d <= distance {
-                pairs.push((i.min(j), i.max(j), d));
-            }
-        }
-    }
-    pairs.sort_by_key(|p| (p.0, p.1));
-    pairs
-}
-
-/// Summary statistics of differences.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Stats {
-    pub n: usize,
-    pub mean: f64,
-    pub median: f64,
-    pub sd: f64,
-    pub rms: f64,
-    pub min: f64,
-    pub max: f64,
-}
-
-/// Statistics of `values` (`None` when empty). `sd` is the sample standard deviation
-/// (n - 1; 0 for one value).
-pub fn stats(values: &[f64]) -> Option<Stats> {
-    if values.is_empty() {
-        return None;
-    }
-    let n = values.len();
-    let mean = values.iter().sum::<f64>() / n as f64;
-    let var = if n > 1 {
-        values.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / (n - 1) as f64
-    } else {
-        0.0
-    };
-    let rms = (values.iter().map(|v| v * v).sum::<f64>() / n as f64).sqrt();
-    let mut sorted = values.to_vec();
-    sorted.sort_by(f64::total_cmp);
-    Some(Stats {
-        n,
-        mean,
-        median: quantile(&sorted, 0.5),
-        sd: var.sqrt(),
-        rms,
-        min: sorted[0],
-        max: sorted[n - 1],
-    })
-}
-
-/// A legacy column: its header and each station's value (`None` where it is bad).
-#[derive(Debug, Clone)]
-pub struct LegacyColumn {
-    pub name: String,
-    pub values: Vec<Option<f64>>,
-}
-
-/// Reads column `col` as legacy values; bad fields (empty, not a number) are collected
-/// as "line N (station X): 'text'" into `bad`.
-fn legacy_values(table: &StationTable, col: usize, bad: &mut Vec<(usize, String)>) -> LegacyColumn {
-    let name = table.headers[col].clone();
-    let values = (0..table.stations.len())
-        .map(|i| {
-            let text = table.records[i][col].trim();
-            match text.parse::<f64>() {
-                Ok(v) if v.is_finite() => Some(v),
-                _ => {
-                    let s = &table.stations[i];
-                    bad.push((
-                        i,
-                        format!("line {} (station {}): {name} is '{text}'", s.line, s.id),
-                    ));
-                    None
-                }
-            }
-        })
-        .collect();
-    LegacyColumn { name, values }
-}
 
 /// One zone compared with its legacy column.
 struct ZoneColumn {
-    /// Zone name (A for the station zone, else the plan ring's name).
+    /// Zone name (A for the station zone, else the plan's zone name).
     zone: String,
-    /// `None` for the inner zone, else the ring's index in the plan.
-    ring: Option<usize>,
+    /// `None` for the inner zone, else the plan rings the zone sums.
+    rings: Option<Vec<usize>>,
     legacy: LegacyColumn,
 }
 
@@ -255,18 +56,22 @@ struct Check {
 
 /// `ringsum audit`.
 pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
-    let settings = Settings::from_args(&args.physics)?;
-    let target = check_target(&args.out)?;
+    let tc = TcSettings::from_args(&args.tc)?;
+    let run = RunSettings::from_args(&args.run)?;
+    let source = tc.require_stations("audit")?;
+    let target = TableTarget::check(&args.out, "--out")?;
     let threshold = parse_threshold(&args.mismatch_threshold, "--mismatch-threshold", false)?;
     let dup_distance = parse_threshold(&args.duplicate_distance, "--duplicate-distance", true)?;
-    let plot_size = parse_plot_size(&args.plot_size)?;
-    check_duplicate_ids(&args.input)?;
-    let inputs = load_inputs(&args.input)?;
-    let dem = &inputs.dem;
-    let table = &inputs.stations;
+    let plot_size = parse_plot_size(&args.plot_size.plot_size)?;
+    check_duplicate_ids(&source.path, source.columns.station.as_deref())?;
+    let opened = Opened::open(&tc)?;
+    let footprint = opened.station_xy();
+    let inputs = opened.read(&tc, &footprint)?;
+    super::print_notes(&inputs, run.quiet);
+    let table = inputs.table();
     let stations = &table.stations;
-    let plan = settings.plan(dem.cell_size_m())?;
-    let radius = settings.engine.outer_radius_m;
+    let plan = tc.plan(inputs.cell_m())?;
+    let radius = tc.engine.outer_radius_m;
 
     // Legacy columns.
     let mut bad: Vec<(usize, String)> = Vec::new();
@@ -275,6 +80,7 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
         None => table.find_column(LEGACY_NAMES),
     };
     let legacy = legacy_col.map(|c| legacy_values(table, c, &mut bad));
+    let plan_zones = zone_columns(&plan);
     let mut zone_columns = Vec::new();
     let mut unmatched_zone_columns = Vec::new();
     for (c, h) in table.headers.iter().enumerate() {
@@ -285,20 +91,17 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
         if Some(c) == legacy_col || zone.is_empty() || zone == "mgal" {
             continue;
         }
-        let ring = plan
-            .rings
+        let found = plan_zones
             .iter()
-            .position(|r| r.name.eq_ignore_ascii_case(zone));
-        let matched =
-            settings.zones == crate::app::ZonesChoice::Hammer && (ring.is_some() || zone == "a");
+            .position(|(name, _)| name.eq_ignore_ascii_case(zone));
+        let matched = tc.zones == ZonesChoice::Hammer && (found.is_some() || zone == "a");
         if matched {
             zone_columns.push(ZoneColumn {
-                zone: if zone == "a" {
-                    "A".to_string()
-                } else {
-                    plan.rings[ring.expect("matched ring")].name.clone()
+                zone: match found {
+                    Some(k) => plan_zones[k].0.clone(),
+                    None => "A".to_string(),
                 },
-                ring,
+                rings: found.map(|k| plan_zones[k].1.clone()),
                 legacy: legacy_values(table, c, &mut bad),
             });
         } else {
@@ -306,7 +109,7 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
         }
     }
     // Zones in plan order (A first).
-    zone_columns.sort_by_key(|z| z.ring.map(|r| r + 1).unwrap_or(0));
+    zone_columns.sort_by_key(|z| z.rings.as_ref().map(|r| r[0] + 1).unwrap_or(0));
     if !bad.is_empty() && !args.skip_bad_legacy {
         let items: Vec<String> = bad.iter().map(|(_, s)| s.clone()).collect();
         bail!(
@@ -326,23 +129,51 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
         None => None,
     };
 
+    // New TC where a comparison is asked for (through the same pipeline as `correct`),
+    // and the coverage of every station's disc by the DEMs together.
+    let compare = legacy.is_some() || !zone_columns.is_empty();
+    let (results, coverage) = compute::stations_then(
+        &inputs,
+        &tc,
+        &plan,
+        &run,
+        if compare {
+            Work::SkipProblems
+        } else {
+            Work::CoverageOnly
+        },
+        "stations",
+        |engines, _| engines.rock.coverage_all(&inputs.station_points),
+    )?;
+
     // Input checks.
-    let pyramid = Pyramid::build(dem);
+    let dems = &inputs.dems.dems;
     let xy: Vec<(f64, f64)> = stations.iter().map(|s| (s.x, s.y)).collect();
     let pairs = near_pairs(&xy, dup_distance);
-    let mut checks: Vec<Check> = stations
-        .iter()
-        .map(|s| {
-            let on_grid = dem.contains(s.x, s.y);
-            let dem_elev = dem.bilinear(s.x, s.y);
+    let mut checks: Vec<Check> = (0..stations.len())
+        .map(|i| {
+            let s = &stations[i];
+            let at: Vec<Point> = inputs.station_points.iter().map(|p| p[i]).collect();
+            let serving = dems
+                .iter()
+                .zip(&at)
+                .position(|(d, p)| d.bilinear(p.x, p.y).is_some());
+            let on_grid = dems.iter().zip(&at).any(|(d, p)| d.contains(p.x, p.y));
+            let dem_elev = serving.and_then(|k| dems[k].bilinear(at[k].x, at[k].y));
+            let slope = serving.and_then(|k| dems[k].slope_deg(at[k].x, at[k].y));
+            let edge = dems
+                .iter()
+                .zip(&at)
+                .map(|(d, p)| d.distance_inside(p.x, p.y))
+                .fold(f64::NEG_INFINITY, f64::max);
             let mut problems = Vec::new();
             if !on_grid {
                 problems.push("outside_dem");
             } else if dem_elev.is_none() {
                 problems.push("on_nodata");
             }
-            let coverage = coverage_with_pyramid(dem, &pyramid, s.x, s.y, radius);
-            if on_grid && dem_elev.is_some() && coverage < 1.0 {
+            let coverage = coverage[i];
+            if dem_elev.is_some() && coverage < 1.0 {
                 problems.push("partial_coverage");
             }
             if let Some(h) = dem_elev {
@@ -352,8 +183,8 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
             }
             Check {
                 dem_elev,
-                slope: dem.slope_deg(s.x, s.y),
-                edge: dem.distance_inside(s.x, s.y),
+                slope,
+                edge,
                 coverage,
                 near: Vec::new(),
                 problems,
@@ -373,45 +204,18 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
         }
     }
 
-    // New TC where a comparison is asked for.
-    let compare = legacy.is_some() || !zone_columns.is_empty();
-    let mut results: Vec<Option<StationResult>> = vec![None; stations.len()];
-    if compare {
-        let engine = Engine::new(dem, settings.engine, plan.clone());
-        let todo: Vec<usize> = (0..stations.len())
-            .filter(|&i| checks[i].dem_elev.is_some())
-            .collect();
-        let points: Vec<Point> = todo
-            .iter()
-            .map(|&i| Point {
-                x: stations[i].x,
-                y: stations[i].y,
-                elev: stations[i].elev,
-            })
-            .collect();
-        let bar = crate::progress::station_bar(points.len() as u64, args.run.quiet, "stations");
-        let computed = with_threads(args.run.threads, || {
-            engine.compute_all(&points, &|| bar.inc(1))
-        })?;
-        bar.finish_and_clear();
-        for (i, r) in todo.into_iter().zip(computed) {
-            results[i] = Some(r);
-        }
-    }
-    let rho = settings.density_kg_m3;
-    let mgal = |k: f64| to_mgal(G * rho * k);
+    let tc_of = |r: &PointTc| from_units(to_units(to_mgal(r.tc_m_s2()), 4), 4);
     // A station enters the comparison when its new TC has the whole disc (or gaps are
     // allowed) and its legacy value is good.
     let comparable =
-        |i: usize| results[i].is_some() && (checks[i].coverage >= 1.0 || settings.allow_gaps);
+        |i: usize| results[i].is_some() && (checks[i].coverage >= 1.0 || tc.allow_gaps);
 
     // The report.
-    let transformed = table.input_crs.is_some();
-    let mut headers: Vec<String> = vec!["station".into(), "x".into(), "y".into()];
-    if transformed {
-        headers.extend(["x_dem".to_string(), "y_dem".to_string()]);
-    }
-    for h in [
+    let columns = StationColumns::of(&inputs);
+    let mut headers: Vec<String> = [
+        "station",
+        "x",
+        "y",
         "elev_m",
         "dem_elev_m",
         "elev_minus_dem_m",
@@ -422,8 +226,12 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
         "near_stations",
         "near_distance_m",
         "problems",
-    ] {
-        headers.push(h.to_string());
+    ]
+    .iter()
+    .map(|s| s.to_string())
+    .collect();
+    if columns.converted {
+        headers.extend(["x_dem".to_string(), "y_dem".to_string()]);
     }
     if legacy.is_some() {
         headers.extend(
@@ -433,34 +241,14 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
         );
     }
     for z in &zone_columns {
-        headers.push(format!("tc_{}_mgal", z.zone));
+        headers.push(format!("tc_zone_{}_mgal", z.zone));
         headers.push(format!("legacy_tc_{}_mgal", z.zone));
-        headers.push(format!("diff_{}_mgal", z.zone));
+        headers.push(format!("diff_zone_{}_mgal", z.zone));
     }
-    let mut report = Table {
-        headers,
-        rows: Vec::new(),
-    };
-    let opt = |v: Option<f64>, d: usize, what: &str| -> anyhow::Result<String> {
-        match v {
-            Some(v) => fixed(v, d, what),
-            None => Ok(String::new()),
-        }
-    };
-    let round4 = |v: f64| (v * 1e4).round() / 1e4;
+    let mut report = Table::new(&headers);
     let mut diffs: Vec<(usize, f64)> = Vec::new();
     let mut zone_diffs: Vec<Vec<f64>> = vec![Vec::new(); zone_columns.len()];
     for (i, (s, c)) in stations.iter().zip(&checks).enumerate() {
-        let what = |col: &str| format!("{col} of station {}", s.id);
-        let mut row = vec![
-            s.id.clone(),
-            trim_coord(s.input_xy.0),
-            trim_coord(s.input_xy.1),
-        ];
-        if transformed {
-            row.push(fixed(s.x, 3, &what("x_dem"))?);
-            row.push(fixed(s.y, 3, &what("y_dem"))?);
-        }
         let dh = c.dem_elev.map(|h| s.elev - h);
         let shift = match (dh, c.slope) {
             (Some(dh), Some(slope)) if slope >= FLAT_SLOPE_DEG => {
@@ -468,27 +256,28 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
             }
             _ => None,
         };
-        row.push(fixed(s.elev, 3, &what("elev_m"))?);
-        row.push(opt(c.dem_elev, 3, &what("dem_elev_m"))?);
-        row.push(opt(dh, 3, &what("elev_minus_dem_m"))?);
-        row.push(opt(c.slope, 2, &what("dem_slope_deg"))?);
-        row.push(opt(shift, 1, &what("shift_for_mismatch_m"))?);
-        row.push(fixed(c.edge, 1, &what("distance_to_dem_edge_m"))?);
-        row.push(fixed(c.coverage, 4, &what("coverage"))?);
+        let mut row = columns.leading(&inputs, i);
+        row.push(Cell::num(s.elev, 3));
+        row.push(Cell::opt(c.dem_elev, 3));
+        row.push(Cell::opt(dh, 3));
+        row.push(Cell::opt(c.slope, 2));
+        row.push(Cell::opt(shift, 1));
+        row.push(Cell::num(c.edge, 1));
+        row.push(Cell::num(c.coverage, 4));
         let near_ids: Vec<&str> = c
             .near
             .iter()
             .map(|&(j, _)| stations[j].id.as_str())
             .collect();
-        row.push(near_ids.join(";"));
-        row.push(opt(
+        row.push(Cell::text(near_ids.join(";")));
+        row.push(Cell::opt(
             c.near.iter().map(|&(_, d)| d).reduce(f64::min),
             3,
-            &what("near_distance_m"),
-        )?);
-        row.push(c.problems.join(";"));
+        ));
+        row.push(Cell::text(c.problems.join(";")));
+        row.extend(columns.converted(&inputs, i));
         if let Some(l) = &legacy {
-            let new = results[i].as_ref().map(|r| round4(mgal(r.kernel_sum_m())));
+            let new = results[i].as_ref().map(tc_of);
             let old = l.values[i];
             let diff = match (new, old) {
                 (Some(n), Some(o)) => Some(n - o),
@@ -497,16 +286,17 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
             if let (Some(d), true) = (diff, comparable(i)) {
                 diffs.push((i, d));
             }
-            row.push(opt(old, 4, &what("legacy_tc_mgal"))?);
-            row.push(opt(new, 4, &what("tc_mgal"))?);
-            row.push(opt(diff, 4, &what("new_minus_legacy_mgal"))?);
+            row.push(Cell::opt(old, 4));
+            row.push(Cell::opt(new, 4));
+            row.push(Cell::opt(diff, 4));
         }
         for (k, z) in zone_columns.iter().enumerate() {
             let new = results[i].as_ref().map(|r| {
-                round4(mgal(match z.ring {
+                let kernel = match &z.rings {
                     None => r.inner_m,
-                    Some(ring) => r.rings_m[ring],
-                }))
+                    Some(rings) => rings.iter().map(|&j| r.rings_m[j]).sum(),
+                };
+                from_units(to_units(to_mgal(r.rock_m_s2(kernel)), 4), 4)
             });
             let old = z.legacy.values[i];
             let diff = match (new, old) {
@@ -516,11 +306,11 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
             if let (Some(d), true) = (diff, comparable(i)) {
                 zone_diffs[k].push(d);
             }
-            row.push(opt(new, 4, &what("tc zone"))?);
-            row.push(opt(old, 4, &what("legacy zone"))?);
-            row.push(opt(diff, 4, &what("diff zone"))?);
+            row.push(Cell::opt(new, 4));
+            row.push(Cell::opt(old, 4));
+            row.push(Cell::opt(diff, 4));
         }
-        report.rows.push(row);
+        report.push(&s.id, row);
     }
 
     // Plots.
@@ -563,8 +353,8 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
                 ),
                 x_desc: format!("legacy TC, column {} (mGal)", l.name),
                 y_desc: format!(
-                    "new TC, {} kg/m3 to {} (mGal)",
-                    density_text(rho),
+                    "new TC, {} to {} (mGal)",
+                    tc.density_text(),
                     format_length(radius)
                 ),
                 points,
@@ -625,20 +415,18 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
         }
     }
 
-    write_table(&target, &report)?;
+    report.write(&target)?;
 
     // The human summary.
     let mut out = String::new();
-    let where_to = match &target {
-        Target::Stdout => "standard output".to_string(),
-        Target::Csv(p) => p.display().to_string(),
-    };
+    let dem_names: Vec<&str> = dems.iter().map(|d| d.source.as_str()).collect();
     out.push_str(&format!(
-        "ringsum audit: {} station(s) in {} against {} (outer radius {}); report written to {where_to}\n",
+        "ringsum audit: {} station(s) in {} against {} (outer radius {}); report written to {}\n",
         stations.len(),
         table.path.display(),
-        dem.source,
-        format_length(radius)
+        dem_names.join(", "),
+        format_length(radius),
+        target.describe()
     ));
     let with = |code: &str| -> Vec<usize> {
         (0..stations.len())
@@ -773,10 +561,10 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
                         (a + old * (old + dd), b + old * old)
                     });
                     out.push_str(&format!(
-                        "  legacy TC ({}): {} station(s) compared at {} kg/m3; new minus legacy mean {:+.4}, median {:+.4}, sd {:.4}, rms {:.4}, range {:+.4} to {:+.4} mGal\n",
+                        "  legacy TC ({}): {} station(s) compared at {}; new minus legacy mean {:+.4}, median {:+.4}, sd {:.4}, rms {:.4}, range {:+.4} to {:+.4} mGal\n",
                         l.name,
                         st.n,
-                        density_text(rho),
+                        tc.density_text(),
                         st.mean,
                         st.median,
                         st.sd,
@@ -855,68 +643,12 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
         ));
     }
     match target {
-        Target::Stdout => {
-            if !args.run.quiet {
+        TableTarget::Stdout => {
+            if !run.quiet {
                 eprint!("{out}");
             }
         }
-        Target::Csv(_) => print!("{out}"),
+        TableTarget::Csv(_) => print!("{out}"),
     }
     Ok(())
-}
-
-/// A density for text: `2670`, `2300.5`.
-fn density_text(d: f64) -> String {
-    crate::sweep::density_label(d)
-}
-
-/// Coordinates as given: enough decimals for degrees and for metres.
-fn trim_coord(v: f64) -> String {
-    let s = format!("{v:.8}");
-    let s = s.trim_end_matches('0');
-    s.trim_end_matches('.').to_string()
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn near_pairs_finds_exactly_the_close_ones() {
-        let xy = [
-            (0.0, 0.0),
-            (10.0, 0.0),
-            (0.5, 0.0),
-            (10.0, 0.9),
-            (50.0, 50.0),
-            (50.0, 50.0),
-        ];
-        let pairs = near_pairs(&xy, 1.0);
-        let ij: Vec<(usize, usize)> = pairs.iter().map(|p| (p.0, p.1)).collect();
-        assert_eq!(ij, [(0, 2), (1, 3), (4, 5)]);
-        assert!((pairs[1].2 - 0.9).abs() < 1e-12);
-        let exact = near_pairs(&xy, 0.0);
-        assert_eq!(exact.len(), 1);
-        assert_eq!((exact[0].0, exact[0].1), (4, 5));
-    }
-
-    #[test]
-    fn statistics_of_differences() {
-        let s = stats(&[1.0, -1.0, 3.0, 1.0]).unwrap();
-        assert_eq!(s.n, 4);
-        assert_eq!(s.mean, 1.0);
-        assert_eq!(s.median, 1.0);
-        assert!((s.sd - (8.0f64 / 3.0).sqrt()).abs() < 1e-12);
-        assert!((s.rms - 3.0f64.sqrt()).abs() < 1e-12);
-        assert_eq!((s.min, s.max), (-1.0, 3.0));
-        assert!(stats(&[]).is_none());
-    }
-
-    #[test]
-    fn thresholds_are_checked() {
-        assert_eq!(parse_threshold("5m", "--x", false).unwrap(), 5.0);
-        assert_eq!(parse_threshold("0", "--x", true).unwrap(), 0.0);
-        assert!(parse_threshold("0", "--x", false).is_err());
-        assert!(parse_threshold("-1m", "--x", true).is_err());
-    }
 }

@@ -1,0 +1,33 @@
+//! The commands: each is wiring over the one pipeline (checked settings, inputs, engine,
+//! typed results, writers), so every input kind works in every command.
+
+pub mod audit;
+pub mod correct;
+pub mod demo;
+pub mod map;
+pub mod plan;
+pub mod sweep;
+
+use crate::cli::{Cli, Command};
+use crate::inputs::Inputs;
+
+/// Runs one command line.
+pub fn run(cli: Cli) -> anyhow::Result<()> {
+    match cli.command {
+        Command::Correct(args) => correct::correct(&args),
+        Command::Sweep(args) => sweep::sweep(&args),
+        Command::Audit(args) => audit::audit(&args),
+        Command::Map(args) => map::map(&args),
+        Command::Plan(args) => plan::plan(&args),
+        Command::Demo(args) => demo::demo(&args),
+    }
+}
+
+/// Prints the notes on how the inputs were taken (unless quiet).
+pub fn print_notes(inputs: &Inputs, quiet: bool) {
+    if !quiet {
+        for note in &inputs.notes {
+            eprintln!("ringsum: note: {note}");
+        }
+    }
+}

@@ -1,0 +1,138 @@
+//! Coordinate reference systems: the only place that calls PROJ (and GDAL's CRS
+//! comparison). Every other module moves points between CRS through [`Transform`].
+
+use gdal::spatial_ref::SpatialRef;
+
+/// A transformation from one CRS into another; the identity when both are the same.
+pub struct Transform {
+    proj: Option<proj::Proj>,
+}
+
+/// Why points could not be moved between two CRS.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum CrsError {
+    #[error("PROJ cannot build a transformation from {from} to {to} ({detail})")]
+    Build {
+        from: String,
+        to: String,
+        detail: String,
+    },
+    #[error("({x}, {y}) has no position in the target CRS ({detail})")]
+    Point { x: f64, y: f64, detail: String },
+}
+
+impl Transform {
+    /// The identity.
+    pub fn identity() -> Transform {
+        Transform { proj: None }
+    }
+
+    /// The transformation from `from` to `to` (EPSG codes, PROJ strings or WKT); the
+    /// identity when GDAL finds them to be the same CRS. `from_name` and `to_name` are
+    /// what a message calls them.
+    pub fn between(
+        from: &str,
+        to: &str,
+        from_name: &str,
+        to_name: &str,
+    ) -> Result<Transform, CrsError> {
+        if from == to || same_crs(from, to) {
+            return Ok(Transform::identity());
+        }
+        proj::Proj::new_known_crs(from, to, None)
+            .map(|p| Transform { proj: Some(p) })
+            .map_err(|e| CrsError::Build {
+                from: from_name.to_string(),
+                to: to_name.to_string(),
+                detail: e.to_string(),
+            })
+    }
+
+    /// Whether this is the identity.
+    pub fn is_identity(&self) -> bool {
+        self.proj.is_none()
+    }
+
+    /// Moves one point; a point with no finite image is an error.
+    pub fn convert(&self, x: f64, y: f64) -> Result<(f64, f64), CrsError> {
+        let Some(p) = &self.proj else {
+            return Ok((x, y));
+        };
+        let (u, v) = p.convert((x, y)).map_err(|e| CrsError::Point {
+            x,
+            y,
+            detail: e.to_string(),
+        })?;
+        if u.is_finite() && v.is_finite() {
+            Ok((u, v))
+        } else {
+            Err(CrsError::Point {
+                x,
+                y,
+                detail: "PROJ gives no finite position".into(),
+            })
+        }
+    }
+
+    /// Moves many points in place (faster than one at a time).
+    pub fn convert_all(&self, points: &mut [(f64, f64)]) -> Result<(), CrsError> {
+        let Some(p) = &self.proj else {
+            return Ok(());
+        };
+        if p.convert_array(points).is_err() {
+            // Find the point at fault for the message.
+            for q in points.iter_mut() {
+                *q = self.convert(q.0, q.1)?;
+            }
+        }
+        if let Some(&(x, y)) = points.iter().find(|q| !q.0.is_finite() || !q.1.is_finite()) {
+            return Err(CrsError::Point {
+                x,
+                y,
+                detail: "PROJ gives no finite position".into(),
+            });
+        }
+        Ok(())
+    }
+}
+
+/// Whether two CRS definitions (WKT, EPSG code or PROJ string) describe the same CRS
+/// (GDAL's `OSRIsSame`); `false` when either cannot be parsed.
+pub fn same_crs(a: &str, b: &str) -> bool {
+    match (
+        SpatialRef::from_definition(a),
+        SpatialRef::from_definition(b),
+    ) {
+        (Ok(a), Ok(b)) => a == b,
+        _ => false,
+    }
+}
+
+/// Whether a CRS definition names a geographic (longitude/latitude) CRS.
+pub fn is_geographic(definition: &str) -> bool {
+    SpatialRef::from_definition(definition)
+        .map(|s| s.is_geographic())
+        .unwrap_or(false)
+}
+
+/// Geodetic longitude and latitude (degrees, WGS 84, east and north positive) of points
+/// given in the CRS `from` (EPSG code, PROJ string or WKT), through PROJ with its
+/// normalised axis order (longitude first). Latitudes on WGS 84 and on GRS80 differ by
+/// less than 1e-8 degrees, so they serve normal gravity on either ellipsoid.
+pub fn geodetic_lon_lat(from: &str, points: &[(f64, f64)]) -> Result<Vec<(f64, f64)>, CrsError> {
+    let t = Transform::between(from, "EPSG:4326", "the DEM's CRS", "EPSG:4326")?;
+    points
+        .iter()
+        .map(|&(x, y)| {
+            let (lon, lat) = t.convert(x, y)?;
+            if lat.abs() > 90.0 {
+                return Err(CrsError::Point {
+                    x,
+                    y,
+                    detail: format!("PROJ gives latitude {lat}"),
+                });
+            }
+            Ok((lon, lat))
+        })
+        .collect()
+}
