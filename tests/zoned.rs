@@ -382,13 +382,13 @@ fn hammer_preset_gives_a_column_per_zone_adding_up() {
         .success();
     let csv = Csv::parse(&String::from_utf8_lossy(&out.get_output().stdout));
     for zone in ["B", "C", "D", "E", "F", "G", "H", "I", "J", "K"] {
-        csv.col(&format!("tc_{zone}_mgal"));
+        csv.col(&format!("tc_zone_{zone}_mgal"));
     }
     for i in 0..csv.rows.len() {
         let tc = csv.num(i, "tc_mgal");
         let zones: f64 = ["B", "C", "D", "E", "F", "G", "H", "I", "J", "K"]
             .iter()
-            .map(|z| csv.num(i, &format!("tc_{z}_mgal")))
+            .map(|z| csv.num(i, &format!("tc_zone_{z}_mgal")))
             .sum();
         assert!(
             (zones + csv.num(i, "tc_inner_mgal") - tc).abs() < 5e-9,

@@ -28,7 +28,7 @@ use crate::output::plot::{
     parse_plot_size, write_figure, HistogramFigure, PlotFormat, PlotTarget, ScatterFigure,
     ZoneFigure,
 };
-use crate::output::station_table::{zone_columns, StationColumns};
+use crate::output::station_table::{zone_columns, StationColumns, LEADING_COLUMNS};
 use crate::output::table::{from_units, to_units, Cell, Table};
 use crate::results::PointTc;
 use crate::text::list_some;
@@ -212,24 +212,19 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
 
     // The report.
     let columns = StationColumns::of(&inputs);
-    let mut headers: Vec<String> = [
-        "station",
-        "x",
-        "y",
-        "elev_m",
-        "dem_elev_m",
-        "elev_minus_dem_m",
-        "dem_slope_deg",
-        "shift_for_mismatch_m",
-        "distance_to_dem_edge_m",
-        "coverage",
-        "near_stations",
-        "near_distance_m",
-        "problems",
-    ]
-    .iter()
-    .map(|s| s.to_string())
-    .collect();
+    let mut headers: Vec<String> = LEADING_COLUMNS
+        .iter()
+        .chain(&[
+            "dem_slope_deg",
+            "shift_for_mismatch_m",
+            "distance_to_dem_edge_m",
+            "coverage",
+            "near_stations",
+            "near_distance_m",
+            "problems",
+        ])
+        .map(|s| s.to_string())
+        .collect();
     if columns.converted {
         headers.extend(["x_dem".to_string(), "y_dem".to_string()]);
     }

@@ -236,24 +236,27 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
     let at_density = |sweep: &DemSweep, i: usize, j: usize, d: f64| {
         to_mgal(G * d * sweep.rock_m[i][j]) + sweep.water_mgal[i][j]
     };
-    let mut headers: Vec<String> = [
+    // The density and DEM columns, after the fixed ones of each table.
+    let extra_columns = |fixed: &[&str]| -> Vec<String> {
+        let mut headers: Vec<String> = fixed.iter().map(|s| s.to_string()).collect();
+        headers.extend(
+            densities
+                .iter()
+                .map(|&d| format!("tc_rho{}_mgal", number(d))),
+        );
+        for o in &others {
+            headers.push(format!("tc_dem_{}_mgal", o.label));
+            headers.push(format!("diff_dem_{}_mgal", o.label));
+        }
+        headers
+    };
+    let mut table = Table::new(&extra_columns(&[
         "station",
         "radius_m",
         "tc_mgal",
         "remaining_mgal",
         "coverage",
-    ]
-    .iter()
-    .map(|s| s.to_string())
-    .collect();
-    for &d in &densities {
-        headers.push(format!("tc_rho{}_mgal", number(d)));
-    }
-    for o in &others {
-        headers.push(format!("tc_dem_{}_mgal", o.label));
-        headers.push(format!("diff_dem_{}_mgal", o.label));
-    }
-    let mut table = Table::new(&headers);
+    ]));
     table.check_unique_headers("give --densities each value once")?;
     let round4 = |v: f64| (v * 1e4).round() / 1e4;
     for (i, s) in stations.iter().enumerate() {
@@ -293,18 +296,9 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
         })
         .collect();
     let summary_table = {
-        let mut headers: Vec<String> = ["station", "tc_mgal", "r95_m", "r99_m", "coverage"]
-            .iter()
-            .map(|s| s.to_string())
-            .collect();
-        for &d in &densities {
-            headers.push(format!("tc_rho{}_mgal", number(d)));
-        }
-        for o in &others {
-            headers.push(format!("tc_dem_{}_mgal", o.label));
-            headers.push(format!("diff_dem_{}_mgal", o.label));
-        }
-        let mut t = Table::new(&headers);
+        let mut t = Table::new(&extra_columns(&[
+            "station", "tc_mgal", "r95_m", "r99_m", "coverage",
+        ]));
         let last_j = radii.len() - 1;
         for (i, s) in stations.iter().enumerate() {
             let last = main.last(i);

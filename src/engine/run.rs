@@ -73,14 +73,6 @@ pub fn map_items<I: Sync, T: Send>(items: &[I], f: impl Fn(&I) -> T + Sync + Sen
     items.par_iter().map(f).collect()
 }
 
-/// Runs `a` and `b` in parallel.
-pub fn join<A: Send, B: Send>(
-    a: impl FnOnce() -> A + Send,
-    b: impl FnOnce() -> B + Send,
-) -> (A, B) {
-    rayon::join(a, b)
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;

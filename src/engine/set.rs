@@ -134,25 +134,6 @@ impl<'a> SetEngine<'a> {
         })
     }
 
-    /// Every point, in parallel, results in input order; `points[k][i]` is point `i` in
-    /// DEM `k`'s CRS, `inner[i]` its own inner zone if any; `tick(1)` after each point.
-    pub fn compute_all(
-        &self,
-        points: &[Vec<Point>],
-        inner: &[Option<InnerZone>],
-        tick: &(dyn Fn(u64) + Sync),
-    ) -> Vec<Option<SetResult>> {
-        let n = points.first().map(Vec::len).unwrap_or(0);
-        run::map_indexed(
-            n,
-            |i| {
-                let ps: Vec<Point> = points.iter().map(|p| p[i]).collect();
-                self.compute(&ps, inner.get(i).copied().flatten())
-            },
-            tick,
-        )
-    }
-
     /// The coverage of every point, in parallel, in input order.
     pub fn coverage_all(&self, points: &[Vec<Point>]) -> Vec<f64> {
         let n = points.first().map(Vec::len).unwrap_or(0);

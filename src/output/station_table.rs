@@ -45,6 +45,16 @@ pub fn zone_columns(plan: &ZonePlan) -> Vec<(String, Vec<usize>)> {
     out
 }
 
+/// The columns every per-station table starts with.
+pub const LEADING_COLUMNS: [&str; 6] = [
+    "station",
+    "x",
+    "y",
+    "elev_m",
+    "dem_elev_m",
+    "elev_minus_dem_m",
+];
+
 /// The station columns every station table starts with, and the converted coordinates.
 pub struct StationColumns {
     /// Whether the file's coordinates were converted (x_dem, y_dem are written).
@@ -104,23 +114,18 @@ pub fn correct_table(
     let field = inputs.field_inner.is_some();
     let several = inputs.dems.dems.len() > 1;
     let densities = inputs.densities.as_ref().filter(|d| d.varying);
-    let mut headers: Vec<String> = [
-        "station",
-        "x",
-        "y",
-        "elev_m",
-        "dem_elev_m",
-        "elev_minus_dem_m",
-        "tc_mgal",
-        "tc_inner_mgal",
-        "tc_near_mgal",
-        "tc_mid_mgal",
-        "tc_far_mgal",
-        "coverage",
-    ]
-    .iter()
-    .map(|s| s.to_string())
-    .collect();
+    let mut headers: Vec<String> = LEADING_COLUMNS
+        .iter()
+        .chain(&[
+            "tc_mgal",
+            "tc_inner_mgal",
+            "tc_near_mgal",
+            "tc_mid_mgal",
+            "tc_far_mgal",
+            "coverage",
+        ])
+        .map(|s| s.to_string())
+        .collect();
     if stations.converted {
         headers.extend(["x_dem".into(), "y_dem".into()]);
     }
