@@ -419,3 +419,43 @@ pub fn check_sector_rings(
         })
         .collect()
 }
+
+/// Stations the sector rings of a plan file are measured on before a run.
+pub const SECTOR_CHECK_STATIONS: usize = 8;
+
+/// Warnings for the sector rings of `plan` that miss the target on the first
+/// [`SECTOR_CHECK_STATIONS`] stations (measured against blocks, see
+/// [`check_sector_rings`]); empty when the plan has none or they all meet it.
+pub fn sector_ring_warnings(
+    inputs: &Inputs,
+    tc: &TcSettings,
+    plan: &ZonePlan,
+    run: &RunSettings,
+) -> anyhow::Result<Vec<String>> {
+    if !plan
+        .rings
+        .iter()
+        .any(|r| matches!(r.method, crate::zones::RingMethod::Sectors { .. }))
+    {
+        return Ok(Vec::new());
+    }
+    let n = inputs.station_count().min(SECTOR_CHECK_STATIONS);
+    let points: Vec<Vec<Point>> = inputs
+        .station_points
+        .iter()
+        .map(|p| p[..n].to_vec())
+        .collect();
+    let checks = run::with_threads(run.threads, || {
+        check_sector_rings(inputs, tc, plan, &points, tc.density_kg_m3)
+    })?;
+    Ok(checks
+        .into_iter()
+        .filter(|c| c.worst_of_target > 1.0)
+        .map(|c| {
+            format!(
+                "sector ring {} of the plan differs from the same ring integrated with blocks by up to {:.4} mGal ({:.1} times the target max(0.01 mGal, 0.5 %)) on the first {n} stations; blocks are the more accurate method there",
+                c.ring, c.worst_mgal, c.worst_of_target
+            )
+        })
+        .collect())
+}

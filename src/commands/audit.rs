@@ -71,6 +71,7 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
     let table = inputs.table();
     let stations = &table.stations;
     let plan = tc.plan(inputs.cell_m())?;
+    super::warn_sector_rings(&inputs, &tc, &plan, &run)?;
     let radius = tc.engine.outer_radius_m;
 
     // Legacy columns.

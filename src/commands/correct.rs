@@ -28,6 +28,7 @@ pub fn correct(args: &CorrectArgs) -> anyhow::Result<()> {
     super::print_notes(&inputs, run.quiet);
     let plan = tc.plan(inputs.cell_m())?;
     let gravity = gravity::read(inputs.table(), &reduction, &inputs.dems.base_crs)?;
+    super::warn_sector_rings(&inputs, &tc, &plan, &run)?;
 
     let started = Instant::now();
     let results: Vec<PointTc> =

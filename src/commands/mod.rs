@@ -31,3 +31,17 @@ pub fn print_notes(inputs: &Inputs, quiet: bool) {
         }
     }
 }
+
+/// Warns (on stderr, even when quiet) about the sector rings of a plan file that miss
+/// the accuracy target on the first stations.
+pub fn warn_sector_rings(
+    inputs: &Inputs,
+    tc: &crate::config::TcSettings,
+    plan: &crate::zones::ZonePlan,
+    run: &crate::config::RunSettings,
+) -> anyhow::Result<()> {
+    for warning in crate::compute::sector_ring_warnings(inputs, tc, plan, run)? {
+        eprintln!("ringsum: warning: {warning}");
+    }
+    Ok(())
+}

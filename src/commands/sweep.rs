@@ -192,6 +192,7 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
     super::print_notes(&inputs, run.quiet);
 
     let plan = tc.plan(inputs.cell_m())?;
+    super::warn_sector_rings(&inputs, &tc, &plan, &run)?;
     let inner_m = inner_zone_radius_m(&plan, inputs.cell_m());
     let asked = match &args.radii {
         Some(text) => parse_radii(text, inner_m, outer)?,
