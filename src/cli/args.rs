@@ -355,8 +355,9 @@ pub struct SweepArgs {
     pub densities: Option<String>,
 
     /// Another DEM to run the same sweep with, in place of the finest DEM given with
-    /// --dem (the coarser ones stay); repeatable. The table gets its TC and its difference
-    /// from the main run's at every radius.
+    /// --dem (the coarser ones stay, but for this file itself if it is one of them);
+    /// repeatable. The table gets its TC and its difference from the main run's at every
+    /// radius.
     #[arg(long, value_name = "PATH", help_heading = "Sweep")]
     pub compare_dem: Vec<PathBuf>,
 

@@ -34,7 +34,7 @@ use anyhow::{bail, Context};
 struct DemSweep {
     /// Short name for column names (the file name of the DEM that differs, no extension).
     label: String,
-    /// The finest DEM's name.
+    /// The DEM this run differs by: the finest DEM's name, or the compared DEM given.
     source: String,
     /// Per station, the TC to each radius, mGal (rock at the run's density plus water).
     tc_mgal: Vec<Vec<f64>>,
@@ -205,8 +205,14 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
     let mut compare_inputs = Vec::new();
     for path in &args.compare_dem {
         let mut other = tc.clone();
+        // The compared DEM in place of the finest; a coarser DEM that is the same file
+        // is not given twice.
+        let same = |a: &std::path::Path, b: &std::path::Path| {
+            a == b
+                || matches!((std::fs::canonicalize(a), std::fs::canonicalize(b)), (Ok(x), Ok(y)) if x == y)
+        };
         other.dems = std::iter::once(path.clone())
-            .chain(coarser.iter().cloned())
+            .chain(coarser.iter().filter(|c| !same(c, path)).cloned())
             .collect();
         if let Some(s) = other.stations.as_mut() {
             // The stations' coordinates are in the main finest DEM's CRS unless given.
@@ -228,8 +234,10 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
 
     let main = sweep_run(&inputs, &tc, &radii, &run, &main_label)?;
     let mut others = Vec::new();
-    for (label, other_tc, other_inputs) in &compare_inputs {
-        others.push(sweep_run(other_inputs, other_tc, &radii, &run, label)?);
+    for ((label, other_tc, other_inputs), path) in compare_inputs.iter().zip(&args.compare_dem) {
+        let mut sweep = sweep_run(other_inputs, other_tc, &radii, &run, label)?;
+        sweep.source = path.display().to_string();
+        others.push(sweep);
     }
 
     let rho = tc.density_kg_m3;
@@ -484,7 +492,7 @@ fn summary_text(
         }
         let ds = sorted(diffs.clone());
         s.push_str(&format!(
-            "  which DEM: {} minus {} at the outer radius: median {:+.4} mGal, largest {:+.4} at {}; column diff_dem_{}_mgal has every radius\n",
+            "  which DEM: {} in place of {}, minus the main run, at the outer radius: median {:+.4} mGal, largest {:+.4} at {}; column diff_dem_{}_mgal has every radius\n",
             o.source,
             main.source,
             quantile(&ds, 0.5),
