@@ -212,6 +212,8 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
 
     // The report.
     let columns = StationColumns::of(&inputs);
+    // The legacy comparison follows the heights, where `correct` has tc_mgal, so that
+    // the columns the two tables share come in one order.
     let mut headers: Vec<String> = [
         "station",
         "x",
@@ -219,26 +221,32 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
         "elev_m",
         "dem_elev_m",
         "elev_minus_dem_m",
-        "dem_slope_deg",
-        "shift_for_mismatch_m",
-        "distance_to_dem_edge_m",
-        "coverage",
-        "near_stations",
-        "near_distance_m",
-        "problems",
     ]
     .iter()
     .map(|s| s.to_string())
     .collect();
-    if columns.converted {
-        headers.extend(["x_dem".to_string(), "y_dem".to_string()]);
-    }
     if legacy.is_some() {
         headers.extend(
             ["legacy_tc_mgal", "tc_mgal", "new_minus_legacy_mgal"]
                 .iter()
                 .map(|s| s.to_string()),
         );
+    }
+    headers.extend(
+        [
+            "dem_slope_deg",
+            "shift_for_mismatch_m",
+            "distance_to_dem_edge_m",
+            "coverage",
+            "near_stations",
+            "near_distance_m",
+            "problems",
+        ]
+        .iter()
+        .map(|s| s.to_string()),
+    );
+    if columns.converted {
+        headers.extend(["x_dem".to_string(), "y_dem".to_string()]);
     }
     for z in &zone_columns {
         headers.push(format!("tc_zone_{}_mgal", z.zone));
@@ -260,6 +268,20 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
         row.push(Cell::num(s.elev, 3));
         row.push(Cell::opt(c.dem_elev, 3));
         row.push(Cell::opt(dh, 3));
+        if let Some(l) = &legacy {
+            let new = results[i].as_ref().map(tc_of);
+            let old = l.values[i];
+            let diff = match (new, old) {
+                (Some(n), Some(o)) => Some(n - o),
+                _ => None,
+            };
+            if let (Some(d), true) = (diff, comparable(i)) {
+                diffs.push((i, d));
+            }
+            row.push(Cell::opt(old, 4));
+            row.push(Cell::opt(new, 4));
+            row.push(Cell::opt(diff, 4));
+        }
         row.push(Cell::opt(c.slope, 2));
         row.push(Cell::opt(shift, 1));
         row.push(Cell::num(c.edge, 1));
@@ -276,20 +298,6 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
         ));
         row.push(Cell::text(c.problems.join(";")));
         row.extend(columns.converted(&inputs, i));
-        if let Some(l) = &legacy {
-            let new = results[i].as_ref().map(tc_of);
-            let old = l.values[i];
-            let diff = match (new, old) {
-                (Some(n), Some(o)) => Some(n - o),
-                _ => None,
-            };
-            if let (Some(d), true) = (diff, comparable(i)) {
-                diffs.push((i, d));
-            }
-            row.push(Cell::opt(old, 4));
-            row.push(Cell::opt(new, 4));
-            row.push(Cell::opt(diff, 4));
-        }
         for (k, z) in zone_columns.iter().enumerate() {
             let new = results[i].as_ref().map(|r| {
                 let kernel = match &z.rings {
