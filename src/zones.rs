@@ -188,11 +188,17 @@ pub struct AutoSettings {
 /// (71 996 ft), beyond which the curvature of the Earth starts to matter (Nowell 1999).
 pub const AUTO_FAR_START_M: f64 = 71_996.0 * FOOT_M;
 
+/// Near-zone radius of the automatic plan, cell sizes. Not a whole number nor a half:
+/// cell centres of a station standing on a cell centre, corner or edge then never lie
+/// exactly on the zone's edge, where a shift of a micrometre (a round trip through
+/// another CRS) would move a cell from one zone's column to the other's.
+pub const NEAR_CELLS: f64 = 7.3;
+
 impl Default for AutoSettings {
     fn default() -> Self {
         AutoSettings {
             inner_half_width: 1,
-            near_cells: 7.0,
+            near_cells: NEAR_CELLS,
             block_ratio: 0.3,
             far_start_m: AUTO_FAR_START_M,
             far_method: FarMethod::Blocks,

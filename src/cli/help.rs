@@ -69,12 +69,13 @@ the ring's nearest edge, since a compartment is integrated whole.
 pub const AUDIT: &str = concat!(
     "\
 Report (--out), one row per station: station, x, y, elev_m, dem_elev_m, elev_minus_dem_m,
-dem_slope_deg, shift_for_mismatch_m (how far the station would have to move on that slope to
-explain the height difference), distance_to_dem_edge_m (negative outside every DEM),
-coverage (of the outer-radius disc), near_stations (other stations within
---duplicate-distance), near_distance_m, problems (codes separated by ';': outside_dem,
-on_nodata, partial_coverage, height_mismatch, near_duplicate, bad_legacy). With a legacy
-column: legacy_tc_mgal, tc_mgal (the `correct` value), new_minus_legacy_mgal. With --zones
+then with a legacy column legacy_tc_mgal, tc_mgal (the `correct` value),
+new_minus_legacy_mgal; then dem_slope_deg, shift_for_mismatch_m (how far the station would
+have to move on that slope to explain the height difference), distance_to_dem_edge_m
+(negative outside every DEM), coverage (of the outer-radius disc), near_stations (other
+stations within --duplicate-distance), near_distance_m, problems (codes separated by ';':
+outside_dem, on_nodata, partial_coverage, height_mismatch, near_duplicate, bad_legacy);
+x_dem, y_dem (--stations-crs). Columns shared with `correct` come in its order. With --zones
 hammer and per-zone legacy columns legacy_tc_A (the station zone, 0-2 m) and legacy_tc_B ...
 legacy_tc_M (Hammer's zones; names case-insensitive): tc_zone_<Z>_mgal, legacy_tc_<Z>_mgal and
 diff_zone_<Z>_mgal per zone found.

@@ -213,9 +213,18 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
 
     // The report.
     let columns = StationColumns::of(&inputs);
-    let mut headers: Vec<String> = LEADING_COLUMNS
-        .iter()
-        .chain(&[
+    // The legacy comparison follows the heights, where `correct` has tc_mgal, so that
+    // the columns the two tables share come in one order.
+    let mut headers: Vec<String> = LEADING_COLUMNS.iter().map(|s| s.to_string()).collect();
+    if legacy.is_some() {
+        headers.extend(
+            ["legacy_tc_mgal", "tc_mgal", "new_minus_legacy_mgal"]
+                .iter()
+                .map(|s| s.to_string()),
+        );
+    }
+    headers.extend(
+        [
             "dem_slope_deg",
             "shift_for_mismatch_m",
             "distance_to_dem_edge_m",
@@ -223,18 +232,12 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
             "near_stations",
             "near_distance_m",
             "problems",
-        ])
-        .map(|s| s.to_string())
-        .collect();
+        ]
+        .iter()
+        .map(|s| s.to_string()),
+    );
     if columns.converted {
         headers.extend(["x_dem".to_string(), "y_dem".to_string()]);
-    }
-    if legacy.is_some() {
-        headers.extend(
-            ["legacy_tc_mgal", "tc_mgal", "new_minus_legacy_mgal"]
-                .iter()
-                .map(|s| s.to_string()),
-        );
     }
     for z in &zone_columns {
         headers.push(format!("tc_zone_{}_mgal", z.zone));
@@ -256,6 +259,20 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
         row.push(Cell::num(s.elev, 3));
         row.push(Cell::opt(c.dem_elev, 3));
         row.push(Cell::opt(dh, 3));
+        if let Some(l) = &legacy {
+            let new = results[i].as_ref().map(tc_of);
+            let old = l.values[i];
+            let diff = match (new, old) {
+                (Some(n), Some(o)) => Some(n - o),
+                _ => None,
+            };
+            if let (Some(d), true) = (diff, comparable(i)) {
+                diffs.push((i, d));
+            }
+            row.push(Cell::opt(old, 4));
+            row.push(Cell::opt(new, 4));
+            row.push(Cell::opt(diff, 4));
+        }
         row.push(Cell::opt(c.slope, 2));
         row.push(Cell::opt(shift, 1));
         row.push(Cell::num(c.edge, 1));
@@ -272,20 +289,6 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
         ));
         row.push(Cell::text(c.problems.join(";")));
         row.extend(columns.converted(&inputs, i));
-        if let Some(l) = &legacy {
-            let new = results[i].as_ref().map(tc_of);
-            let old = l.values[i];
-            let diff = match (new, old) {
-                (Some(n), Some(o)) => Some(n - o),
-                _ => None,
-            };
-            if let (Some(d), true) = (diff, comparable(i)) {
-                diffs.push((i, d));
-            }
-            row.push(Cell::opt(old, 4));
-            row.push(Cell::opt(new, 4));
-            row.push(Cell::opt(diff, 4));
-        }
         for (k, z) in zone_columns.iter().enumerate() {
             let new = results[i].as_ref().map(|r| {
                 let kernel = match &z.rings {
