@@ -478,7 +478,7 @@ fn compare_dem_reports_the_difference_at_every_radius() {
         }
     }
     assert!(
-        stdout.contains("which DEM: ") && stdout.contains("hill_50m.tif minus"),
+        stdout.contains("which DEM: ") && stdout.contains("hill_50m.tif in place of"),
         "{stdout}"
     );
     // The last radius of the coarse DEM is its own `correct` value.
