@@ -451,7 +451,8 @@ pub struct MapArgs {
     #[command(flatten)]
     pub run: RunArgs,
 
-    /// Distance between grid nodes (m or km).
+    /// Distance between grid nodes: a length (m or km) when the finest DEM is projected, an
+    /// angle (arc-seconds, 3s, or degrees, 0.001deg) when it is on longitude and latitude.
     #[arg(
         long,
         value_name = "LENGTH",

@@ -102,7 +102,8 @@ GeoTIFF cell (so maps of one spacing line up); every node is computed at the hei
 finest DEM with data there, as a station standing on the terrain, with the same DEMs, plan,
 density and water as `correct`. Nodes on nodata, nodes on water with the surface inner
 model, and nodes whose disc lacks DEM data unless --allow-gaps, are written as nodata
-(-9999). The GeoTIFF (float32, mGal) has the finest DEM's CRS. Grids of more than 200
+(-9999). The GeoTIFF (float32, mGal) has the finest DEM's CRS (a lon/lat grid for a
+geographic finest DEM, its --spacing then an angle). Grids of more than 200
 million nodes are refused with a spacing that fits. Per-station inputs (--density-col,
 --field-inner-col) have no value at grid nodes and are refused.
 

@@ -134,6 +134,42 @@ fn compute_grid(
     Ok((values, counts))
 }
 
+/// The node spacing in the finest DEM's units: a length on a projected grid; arc-seconds
+/// (`3s`) or degrees (`0.001deg`) on a geographic one.
+fn grid_spacing(text: &str, geographic: bool, dem: &str) -> anyhow::Result<f64> {
+    let t = text.trim().to_ascii_lowercase();
+    let angle = |number: &str, per_degree: f64| -> anyhow::Result<f64> {
+        let v: f64 = number.trim().parse().map_err(|_| {
+            anyhow::anyhow!("--spacing {text}: give a number of arc-seconds or degrees, e.g. 3s or 0.001deg")
+        })?;
+        if !(v.is_finite() && v > 0.0) {
+            bail!("--spacing {text}: give a positive angle, e.g. 3s");
+        }
+        Ok(v / per_degree)
+    };
+    if geographic {
+        if let Some(n) = t.strip_suffix("deg") {
+            return angle(n, 1.0);
+        }
+        if let Some(n) = t.strip_suffix('s') {
+            return angle(n, 3600.0);
+        }
+        bail!(
+            "--spacing {text}: {dem} is on longitude and latitude, so the grid's spacing is an angle; give arc-seconds (e.g. 3s) or degrees (e.g. 0.001deg)"
+        );
+    }
+    if t.ends_with("deg") || (t.ends_with('s') && !t.ends_with("ms")) {
+        bail!(
+            "--spacing {text}: {dem} is in a projected CRS, so the grid's spacing is a length; give m or km, e.g. 250m"
+        );
+    }
+    let spacing = parse_length_m(text).map_err(|e| anyhow::anyhow!("--spacing: {e}"))?;
+    if spacing <= 0.0 {
+        bail!("--spacing {text}: give a positive length, e.g. 250m");
+    }
+    Ok(spacing)
+}
+
 /// The outline of the grid (its edges sampled), for the DEM windows.
 fn outline(grid: &NodeGrid) -> Vec<(f64, f64)> {
     let mut out = Vec::new();
@@ -160,13 +196,6 @@ pub fn map(args: &MapArgs) -> anyhow::Result<()> {
     if tc.field_inner.is_some() {
         return usage("--field-inner-col gives inner zones per station, and map computes at grid nodes; leave it out");
     }
-    let spacing = parse_length_m(&args.spacing).map_err(|e| anyhow::anyhow!("--spacing: {e}"))?;
-    if spacing <= 0.0 {
-        bail!(
-            "--spacing {}: give a positive length, e.g. 250m",
-            args.spacing
-        );
-    }
     check_extension(
         &args.out,
         "--out",
@@ -181,25 +210,37 @@ pub fn map(args: &MapArgs) -> anyhow::Result<()> {
     let plot_size = parse_plot_size(&args.plot_size.plot_size)?;
 
     let opened = Opened::open(&tc)?;
-    if opened.dems.primary_kind() != GridKind::Projected {
-        bail!(
-            "{}: map lays its grid out in the finest DEM's CRS, and this one is in degrees while --spacing is a length; give a DEM in a projected CRS as the finest",
-            opened.dems.primary_name()
-        );
-    }
+    let geographic = opened.dems.primary_kind() != GridKind::Projected;
+    let spacing = grid_spacing(&args.spacing, geographic, opened.dems.primary_name())?;
     let outer = tc.engine.outer_radius_m;
     let stations_xy = opened.stations.as_ref().map(|_| opened.station_xy());
-    let inset = if opened.dems.len() == 1 && !tc.allow_gaps {
+    let inset_m = if opened.dems.len() == 1 && !tc.allow_gaps {
         outer
     } else {
         0.0
     };
     let (x0, x1, y0, y1) = opened.dems.primary_extent();
+    // The inset in the grid's units (degrees of a geographic grid, taken where a degree
+    // of longitude is shortest, so the disc stays inside).
+    let inset = if geographic {
+        let ell = match opened.dems.primary_kind() {
+            GridKind::Geographic(e) => e,
+            GridKind::Projected => unreachable!("geographic"),
+        };
+        let lat = y0.abs().max(y1.abs()).min(89.0).to_radians();
+        let (n, m) = ell.radii(lat);
+        (
+            inset_m / (n * lat.cos() * 1f64.to_radians()),
+            inset_m / (m * 1f64.to_radians()),
+        )
+    } else {
+        (inset_m, inset_m)
+    };
     let extent = extent_of(
         &args.extent,
         (x0, x1, y0, y1),
         opened.dems.primary_name(),
-        (inset, inset),
+        inset,
         outer,
         stations_xy.as_deref(),
         spacing,
@@ -233,7 +274,7 @@ pub fn map(args: &MapArgs) -> anyhow::Result<()> {
                 grid.cols,
                 grid.rows,
                 grid.len(),
-                format_length(spacing),
+                args.spacing.trim(),
                 bytes_text(grid.len() as f64 * BYTES_PER_NODE),
                 duration_text(per_node * grid.len() as f64),
                 run::current_threads(),
@@ -307,7 +348,7 @@ pub fn map(args: &MapArgs) -> anyhow::Result<()> {
         let figure = MapFigure {
             title: format!(
                 "TC at the terrain: {} grid, {}, to {}, {convention}",
-                format_length(spacing),
+                args.spacing.trim(),
                 tc.density_text(),
                 format_length(outer)
             ),
@@ -319,6 +360,7 @@ pub fn map(args: &MapArgs) -> anyhow::Result<()> {
             spacing,
             dem: inputs.dems.finest(),
             stations: stations_xy.clone().unwrap_or_default(),
+            geographic,
         };
         write_figure(target, plot_size, &figure)?;
     }

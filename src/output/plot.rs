@@ -846,6 +846,8 @@ pub struct MapFigure<'a> {
     pub dem: &'a crate::dem::Dem,
     /// Station positions to mark, m.
     pub stations: Vec<(f64, f64)>,
+    /// Whether the grid is in longitude and latitude (degrees) rather than metres.
+    pub geographic: bool,
 }
 
 /// Hillshade of the DEM at `(x, y)` from central differences over `step` (m): 0 (in
@@ -857,8 +859,10 @@ pub fn hillshade(dem: &crate::dem::Dem, x: f64, y: f64, step: f64) -> Option<f64
     let w = dem.bilinear(x - step, y)?;
     let n = dem.bilinear(x, y + step)?;
     let s = dem.bilinear(x, y - step)?;
-    let gx = (e - w) / (2.0 * step);
-    let gy = (n - s) / (2.0 * step);
+    // Gradients per metre (a geographic grid's units are degrees).
+    let (mx, my) = dem.metres_per_unit(y);
+    let gx = (e - w) / (2.0 * step * mx);
+    let gy = (n - s) / (2.0 * step * my);
     // Unit normal (-gx, -gy, 1) / norm; sun direction from azimuth 315, altitude 45.
     let norm = (gx * gx + gy * gy + 1.0).sqrt();
     let (alt, az) = (45f64.to_radians(), 315f64.to_radians());
@@ -894,6 +898,8 @@ impl Figure for MapFigure<'_> {
     where
         DB::ErrorType: 'static,
     {
+        // Grid units per chart unit: km for a projected grid, degrees for a geographic one.
+        let unit = if self.geographic { 1.0 } else { 1000.0 };
         let (w, _) = root.dim_in_pixel();
         let bar_width = 150u32.min(w / 4);
         let (map_area, bar_area) = root.split_horizontally(w - bar_width);
@@ -917,18 +923,21 @@ impl Figure for MapFigure<'_> {
         let (cx, cy) = (0.5 * (x0 + x1), 0.5 * (y0 + y1));
         let (vx0, vx1) = (cx - 0.5 * per_px * pw as f64, cx + 0.5 * per_px * pw as f64);
         let (vy0, vy1) = (cy - 0.5 * per_px * ph as f64, cy + 0.5 * per_px * ph as f64);
-        let mut chart = build(vx0 / 1000.0..vx1 / 1000.0, vy0 / 1000.0..vy1 / 1000.0)?;
-        let decimals = if per_px * pw.max(ph) as f64 > 10_000.0 {
-            0
-        } else {
-            1
-        };
+        let mut chart = build(vx0 / unit..vx1 / unit, vy0 / unit..vy1 / unit)?;
+        // Decimals enough to tell the ticks apart (about ten across the picture).
+        let span = per_px * pw.max(ph) as f64 / unit;
+        let decimals = (1.0 - (span / 10.0).log10().floor()).clamp(0.0, 6.0) as usize;
         let km_label = move |v: &f64| format!("{v:.decimals$}");
+        let (x_desc, y_desc) = if self.geographic {
+            ("longitude (deg)", "latitude (deg)")
+        } else {
+            ("easting (km)", "northing (km)")
+        };
         chart
             .configure_mesh()
             .disable_mesh()
-            .x_desc("easting (km)")
-            .y_desc("northing (km)")
+            .x_desc(x_desc)
+            .y_desc(y_desc)
             .x_label_formatter(&km_label)
             .y_label_formatter(&km_label)
             .label_style(label_font())
@@ -978,24 +987,24 @@ impl Figure for MapFigure<'_> {
                 buf[i..i + 3].copy_from_slice(&rgb);
             }
         }
-        let image = BitMapElement::with_owned_buffer((vx0 / 1000.0, vy1 / 1000.0), (pw, ph), buf)
+        let image = BitMapElement::with_owned_buffer((vx0 / unit, vy1 / unit), (pw, ph), buf)
             .context("internal error: map buffer of the wrong size")?;
         chart.draw_series(std::iter::once(image))?;
         // Outline of the grid and the stations.
         chart.draw_series(std::iter::once(PathElement::new(
             vec![
-                (x0 / 1000.0, y0 / 1000.0),
-                (x1 / 1000.0, y0 / 1000.0),
-                (x1 / 1000.0, y1 / 1000.0),
-                (x0 / 1000.0, y1 / 1000.0),
-                (x0 / 1000.0, y0 / 1000.0),
+                (x0 / unit, y0 / unit),
+                (x1 / unit, y0 / unit),
+                (x1 / unit, y1 / unit),
+                (x0 / unit, y1 / unit),
+                (x0 / unit, y0 / unit),
             ],
             BLACK.stroke_width(1),
         )))?;
         chart.draw_series(
             self.stations
                 .iter()
-                .map(|&(x, y)| Circle::new((x / 1000.0, y / 1000.0), 3, BLACK.stroke_width(1))),
+                .map(|&(x, y)| Circle::new((x / unit, y / unit), 3, BLACK.stroke_width(1))),
         )?;
         // Colour bar.
         let mut bar = ChartBuilder::on(&bar_area)
