@@ -722,7 +722,10 @@ mod tests {
         }
         assert!(!edges.contains(&31_000.0));
         let names: Vec<&str> = split.rings.iter().map(|r| r.name.as_str()).collect();
-        assert_eq!(&names[..5], ["near_1", "near_2", "near_3", "mid_1", "mid_2"]);
+        assert_eq!(
+            &names[..5],
+            ["near_1", "near_2", "near_3", "mid_1", "mid_2"]
+        );
         for piece in &split.rings {
             let parent = &plan.rings[plan.ring_at(0.5 * (piece.inner_m + piece.outer_m))];
             assert_eq!(piece.method, parent.method);

@@ -988,6 +988,55 @@ fn a_map_node_equals_correct_at_that_point_with_every_input_kind() {
 }
 
 #[test]
+fn a_map_on_a_lon_lat_dem_equals_correct_at_its_nodes() {
+    // The finest DEM on longitude and latitude: the grid is laid out in degrees (a 90
+    // arc-second spacing), and each node equals correct at that point, the stations given
+    // in the same lon/lat CRS.
+    let dir = TestDir::new();
+    let lonlat = demo("quillerun_3s_lonlat.tif");
+    let coarse = demo("quillerun_500m.tif");
+    let fine = read_dem(&lonlat).expect("read the demo's lon/lat DEM");
+    let args = [
+        "--outer-radius",
+        "8km",
+        "--spacing",
+        "90s",
+        "--extent",
+        "14.90,46.93,14.96,46.98",
+    ];
+    let grid = map_grid(&dir, &[&lonlat, &coarse], None, &args);
+    assert!(
+        (grid.dx - 90.0 / 3600.0).abs() < 1e-12,
+        "spacing {}",
+        grid.dx
+    );
+    let mut nodes = Vec::new();
+    let mut values = BTreeMap::new();
+    for r in 0..grid.rows {
+        for c in 0..grid.cols {
+            let value = grid.heights[r * grid.cols + c];
+            assert!(!value.is_nan(), "node {c}, {r} has no value");
+            let (x, y) = (grid.col_center_x(c), grid.row_center_y(r));
+            let id = format!("N{c}_{r}");
+            let elev = fine.bilinear(x, y).expect("the node is on the lon/lat DEM");
+            nodes.push(Station::new(&id, x, y, elev));
+            values.insert(id, format!("{value}"));
+        }
+    }
+    assert!(nodes.len() >= 4, "{} nodes", nodes.len());
+    let st = write_stations(&dir, "nodes.csv", &nodes);
+    let c = table(&dir, "correct", &[&lonlat, &coarse], &st, &args[..2]);
+    let mut fails = Failures::default();
+    fails.values(
+        "map nodes on a lon/lat DEM against correct",
+        &by_station(&c, "tc_mgal"),
+        &values,
+        &|v| 0.5 * PRINTED + 1.2e-7 * v.abs(),
+    );
+    fails.check("a map node must equal correct at that point");
+}
+
+#[test]
 fn map_refuses_per_station_inputs_with_status_2() {
     let dir = TestDir::new();
     let fine = demo("quillerun_30m.tif");

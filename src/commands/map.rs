@@ -140,7 +140,9 @@ fn grid_spacing(text: &str, geographic: bool, dem: &str) -> anyhow::Result<f64> 
     let t = text.trim().to_ascii_lowercase();
     let angle = |number: &str, per_degree: f64| -> anyhow::Result<f64> {
         let v: f64 = number.trim().parse().map_err(|_| {
-            anyhow::anyhow!("--spacing {text}: give a number of arc-seconds or degrees, e.g. 3s or 0.001deg")
+            anyhow::anyhow!(
+                "--spacing {text}: give a number of arc-seconds or degrees, e.g. 3s or 0.001deg"
+            )
         })?;
         if !(v.is_finite() && v > 0.0) {
             bail!("--spacing {text}: give a positive angle, e.g. 3s");
