@@ -665,8 +665,11 @@ mod tests {
     const G_CODATA2018: f64 = 6.674_30e-11;
 
     /// Downward attraction of the spherical cap of thickness h (station on top), mGal,
-    /// by composite Simpson integration of the radial integral of SCIENCE.md 5.4 for
-    /// LaFehr's (1991a) cap, whose layers all span the angle alpha = S/R0:
+    /// by composite Simpson integration of the radial integral for the cap of
+    /// \[LaFehr1991a\], whose layers all span the angle alpha = S/R0. Derived again here:
+    /// a thin spherical layer of radius r, integrated in closed form over the angle, pulls
+    /// the station at R = R0 + h with (pi G rho / R^2) r [D + 2r - (R^2 - r^2)/D] dr,
+    /// D = sqrt(R^2 + r^2 - 2 R r cos alpha), so
     /// g = (pi G rho / R^2) Int_{R0}^{R} r [D + 2r - (R^2 - r^2)/D] dr.
     /// For h < 0 the limits run downward, giving the signed continuation.
     fn cap_by_simpson(rho: f64, h: f64, panels: usize) -> f64 {
@@ -813,13 +816,13 @@ mod tests {
                 "e' (boule 0.6.0 docs)",
             ),
             (c.m, 0.003_449_786_506_84, 5e-15, "m (boule 0.6.0 docs)"),
-            // k: SCIENCE.md 5.1 quotes 0.00193185265241 (boule 0.6.0, from its rounded
-            // gamma values); the defining constants give 0.0019318526524583.
+            // k: boule 0.6.0's docs print 0.00193185265241 (from the rounded gamma
+            // values); the defining constants give 0.0019318526524583.
             (
                 c.somigliana_k,
                 0.001_931_852_652_41,
                 1e-13,
-                "k (SCIENCE.md 5.1)",
+                "k (boule 0.6.0 docs)",
             ),
             // The same closed forms in 40 digits (mpmath 1.4.1) from the same constants.
             (
@@ -869,8 +872,10 @@ mod tests {
 
     #[test]
     fn normal_gravity_check_table() {
-        // SCIENCE.md 5.1 checks (closed form; boule 0.6.0 agrees to 1e-5), mGal, printed
-        // to 1e-5 mGal.
+        // Derived again here: the Somigliana closed form with the printed constants of
+        // GRS80 (Moritz 2000) and WGS84 (TR8350.2), evaluated with mpmath and rounded to
+        // 1e-5 mGal. boule 0.6.0 agrees to 1e-5 mGal (normal_gravity_boule.csv, written by
+        // scripts/reference/make_normal_gravity_fixture.py).
         let lats = [0.0, 30.0, 45.0, 60.0, 90.0];
         let grs80 = [
             978_032.677_15,
@@ -891,22 +896,23 @@ mod tests {
                 normal_gravity_mgal(Ellipsoid::Grs80, lat),
                 grs80[i],
                 6e-6,
-                "GRS80 gamma0 (SCIENCE.md 5.1)",
+                "GRS80 gamma0 (Somigliana, Moritz 2000)",
             );
             close(
                 normal_gravity_mgal(Ellipsoid::Wgs84, lat),
                 wgs84[i],
                 6e-6,
-                "WGS84 gamma0 (SCIENCE.md 5.1)",
+                "WGS84 gamma0 (Somigliana, TR8350.2)",
             );
         }
     }
 
     #[test]
     fn old_series_is_off_by_0_068_mgal() {
-        // SCIENCE.md 5.1: the 1980 series 978032.7 (1 + 0.0053024 sin^2 - 0.0000058
-        // sin^2 2phi) is off by up to +0.068 mGal, at 45 deg, against the closed form
-        // (measured: +0.0675 at 44.1 deg).
+        // The 1980 series 978032.7 (1 + 0.0053024 sin^2 - 0.0000058 sin^2 2phi), the short
+        // form of GRS80 normal gravity as we recall it from Moritz (2000) (from memory), is
+        // off by up to +0.068 mGal, near 45 deg, against the closed form. Our own
+        // computation, repeated by the loop below (measured: +0.0675 at 44.1 deg).
         let mut worst = (0.0, 0.0);
         for i in 0..=900 {
             let lat = 0.1 * f64::from(i);
@@ -918,7 +924,7 @@ mod tests {
                 worst = (lat, diff);
             }
         }
-        close(worst.1, 0.068, 1e-3, "1980 series error (SCIENCE.md 5.1)");
+        close(worst.1, 0.068, 1e-3, "1980 series error (own computation)");
         close(
             worst.0,
             45.0,
@@ -1065,9 +1071,10 @@ mod tests {
     #[test]
     fn second_order_free_air_error_against_boule_at_height() {
         // boule 0.6.0 gives exact normal gravity above the ellipsoid (fixture at 1000 and
-        // 3000 m). SCIENCE.md 5.2 states the second-order form errs by about
-        // -0.010 mGal/km: gamma0 - FAC exceeds the exact value by that much. Measured
-        // here: 0.0087 to 0.0104 mGal per km; the bounds are 0.008 and 0.011 per km.
+        // 3000 m). Against it the second-order form errs by about -0.010 mGal/km (at
+        // 45 deg and 1000 m, FAC 308.4771 against boule's exact 308.4873): gamma0 - FAC
+        // exceeds the exact value by that much. Measured here: 0.0087 to 0.0104 mGal per
+        // km; the bounds are 0.008 and 0.011 per km.
         let rows: Vec<BouleRow> = boule_fixture()
             .into_iter()
             .filter(|r| r.height_m != 0.0)
@@ -1080,7 +1087,7 @@ mod tests {
             assert!(
                 (0.008..=0.011).contains(&per_km),
                 "second-order FAC error {per_km:.5} mGal/km at lat {} h {} ({}) is outside the \
-                 SCIENCE.md 5.2 level of about 0.010 mGal/km",
+                 level of about 0.010 mGal/km found against boule 0.6.0",
                 r.latitude_deg,
                 r.height_m,
                 r.ellipsoid.name()
@@ -1107,8 +1114,8 @@ mod tests {
 
     #[test]
     fn free_air_coefficients_come_from_heiskanen_moritz() {
-        // SCIENCE.md 5.2: the Hinze et al. (2005) coefficients are the Heiskanen & Moritz
-        // (1967) expansion with GRS80 values, rounded.
+        // The Hinze et al. (2005) coefficients are the Heiskanen & Moritz (1967) expansion
+        // with GRS80 values, rounded; derived again here by fac_heiskanen_moritz.
         let (_, c1, c2, c3) = fac_heiskanen_moritz(0.0, 0.0);
         close(c1, 0.308_769_1, 5e-8, "0.3087691 mGal/m (Hinze 2005)");
         close(c2, 0.000_439_8, 5e-8, "0.0004398 mGal/m (Hinze 2005)");
@@ -1117,8 +1124,9 @@ mod tests {
 
     #[test]
     fn free_air_check_values() {
-        // SCIENCE.md 5.2 check values (mGal, 4 decimals), and the same values computed
-        // here from the Heiskanen & Moritz (1967) expansion with GRS80 constants.
+        // Check values: the Hinze et al. (2005) second-order formula evaluated by us (mGal,
+        // 4 decimals), and the same values computed here from the Heiskanen & Moritz
+        // (1967) expansion with GRS80 constants.
         for (lat, h, printed) in [
             (45.0, 1000.0, 308.4771),
             (45.0, 2000.0, 616.8099),
@@ -1126,7 +1134,7 @@ mod tests {
             (90.0, 1000.0, 308.2572),
         ] {
             let ours = free_air_correction_mgal(FreeAirModel::SecondOrder, lat, h);
-            close(ours, printed, 5e-5, "second-order FAC (SCIENCE.md 5.2)");
+            close(ours, printed, 5e-5, "second-order FAC (Hinze 2005 formula)");
             let (hm, ..) = fac_heiskanen_moritz(lat, h);
             // Rounding the coefficients to 7 decimals moves FAC by < 5e-8 h + 5e-13 h^2.
             close(
@@ -1173,7 +1181,8 @@ mod tests {
 
     #[test]
     fn atmospheric_check_values() {
-        // SCIENCE.md 5.3 checks, Wenzel (1985) as adopted by Hinze et al. (2005).
+        // Check values: the polynomial 0.874 - 9.9e-5 h + 3.56e-9 h^2 of Wenzel (1985), as
+        // adopted by Hinze et al. (2005), evaluated by us and rounded to 1e-5 mGal.
         for (h, printed) in [
             (0.0, 0.87400),
             (500.0, 0.82539),
@@ -1185,7 +1194,7 @@ mod tests {
                 atmospheric_correction_mgal(h),
                 printed,
                 5e-6,
-                "dg_atm (SCIENCE.md 5.3)",
+                "dg_atm (Wenzel 1985 polynomial)",
             );
         }
         // Extrapolated below the ellipsoid: 0.874 + 9.9e-5 * 430 + 3.56e-9 * 430^2.
@@ -1201,19 +1210,19 @@ mod tests {
 
     #[test]
     fn slab_check_values() {
-        // SCIENCE.md section 1: h = 1000 m, rho = 2670 gives 111.96876 mGal (CODATA 2018 G);
-        // 2 pi G = 0.0419359 mGal/m per g/cm^3.
+        // Derived again here with CODATA 2018 G: 2 pi G rho h for h = 1000 m, rho = 2670
+        // gives 111.96876 mGal; 2 pi G = 0.0419359 mGal/m per g/cm^3.
         close(
             bouguer_slab_mgal(2670.0, 1000.0),
             111.968_76,
             5e-6,
-            "Bullard A (SCIENCE.md 1)",
+            "Bullard A (CODATA 2018 G)",
         );
         close(
             bouguer_slab_mgal(1000.0, 1.0),
             0.041_935_9,
             5e-8,
-            "2 pi G (SCIENCE.md 1)",
+            "2 pi G (CODATA 2018)",
         );
         close(
             bouguer_slab_mgal(2670.0, -100.0),
@@ -1221,19 +1230,21 @@ mod tests {
             5e-7,
             "slab is odd in h",
         );
-        // SCIENCE.md 9: marine contrast 1643 kg/m^3 over 1000 m gives 68.9006 mGal.
+        // Marine contrast 1643 = 2670 - 1027 kg/m^3 over 1000 m: 2 pi G (rho_r - rho_w) D
+        // with CODATA 2018 G gives 68.9006 mGal (derived again here).
         close(
             bouguer_slab_mgal(1643.0, 1000.0),
             68.9006,
             5e-5,
-            "slab, rock-water contrast (SCIENCE.md 9)",
+            "slab, rock-water contrast (CODATA 2018 G)",
         );
     }
 
     #[test]
     fn bullard_b_reproduces_table() {
-        // SCIENCE.md 5.4 table (rho 2670, CODATA 2018 G), computed there from LaFehr
-        // (1991a) and checked against 40-digit integration; printed to 1e-5 mGal.
+        // Our own table (rho 2670, CODATA 2018 G): the LaFehr (1991a) closed form evaluated
+        // with mpmath and checked against a 40-digit integration of the cap's radial
+        // integral (cap_by_simpson repeats that integral in f64); printed to 1e-5 mGal.
         let heights = [100.0, 500.0, 1000.0, 2000.0, 3000.0, 4000.0, 5000.0];
         let bb = [
             0.14298, 0.64419, 1.11170, 1.51699, 1.21659, 0.21127, -1.49812,
@@ -1246,8 +1257,8 @@ mod tests {
         for i in 0..heights.len() {
             let ours_bb = bullard_b_mgal(2670.0, heights[i]);
             let ours_cap = bouguer_cap_mgal(2670.0, heights[i]);
-            close(ours_bb, bb[i], 5e-6, "Bullard B (SCIENCE.md 5.4)");
-            close(ours_cap, cap[i], 5e-6, "Bouguer cap (SCIENCE.md 5.4)");
+            close(ours_bb, bb[i], 5e-6, "Bullard B (LaFehr 1991a)");
+            close(ours_cap, cap[i], 5e-6, "Bouguer cap (LaFehr 1991a)");
             worst_bb = worst_bb.max((ours_bb - bb[i]).abs());
             worst_cap = worst_cap.max((ours_cap - cap[i]).abs());
         }
@@ -1256,7 +1267,8 @@ mod tests {
 
     #[test]
     fn bullard_b_extremes() {
-        // SCIENCE.md 5.4: maximum 1.51893 mGal at h = 2074 m, zero at h = 4150 m (rho 2670).
+        // Our own evaluation of the LaFehr (1991a) closed form with mpmath (rho 2670,
+        // CODATA 2018 G): maximum 1.51893 mGal at h = 2074 m, zero at h = 4150 m.
         let (mut best_h, mut best) = (0.0, f64::MIN);
         for i in 0..=10_000 {
             let h = 1500.0 + 0.1 * i as f64;
@@ -1266,8 +1278,8 @@ mod tests {
                 best_h = h;
             }
         }
-        close(best, 1.518_93, 5e-6, "max BB (SCIENCE.md 5.4)");
-        close(best_h, 2074.0, 0.5, "height of max BB (SCIENCE.md 5.4)");
+        close(best, 1.518_93, 5e-6, "max BB (LaFehr 1991a)");
+        close(best_h, 2074.0, 0.5, "height of max BB (LaFehr 1991a)");
         let (mut lo, mut hi) = (3000.0, 5000.0);
         for _ in 0..60 {
             let mid = 0.5 * (lo + hi);
@@ -1277,7 +1289,7 @@ mod tests {
                 hi = mid;
             }
         }
-        close(lo, 4150.0, 0.5, "zero of BB (SCIENCE.md 5.4)");
+        close(lo, 4150.0, 0.5, "zero of BB (LaFehr 1991a)");
     }
 
     #[test]
@@ -1303,14 +1315,14 @@ mod tests {
                 "BB (50-digit closed form)",
             );
         }
-        // The slope at 0, 1.4651215e-3 mGal/m, is below the linear term of SCIENCE.md
-        // 5.4's cubic fit (1.465189e-3), which is a least-squares fit over 0-5 km.
+        // The slope at 0, 1.4651215e-3 mGal/m, is below the linear term of our own cubic
+        // fit in tests/reduction.rs (1.465189e-3), which is a least-squares fit over 0-5 km.
         assert!(bullard_b_mgal(2670.0, -7_000_000.0).is_nan());
     }
 
     #[test]
     fn bullard_b_scales_with_density() {
-        // BB is linear in rho (SCIENCE.md 5.4).
+        // BB is linear in rho: BB = 2 pi G rho (mu h - lambda R) (LaFehr 1991a).
         for h in [-500.0, 300.0, 2500.0] {
             close(
                 bullard_b_mgal(2000.0, h),
@@ -1324,7 +1336,8 @@ mod tests {
     #[test]
     fn cap_matches_numerical_integral() {
         // Independent route: composite Simpson integration of the cap's radial integral
-        // (SCIENCE.md 5.4), against the LaFehr (1991a) closed form, to 1e-6 mGal.
+        // (derived again at cap_by_simpson), against the LaFehr (1991a) closed form, to
+        // 1e-6 mGal.
         for h in [
             -1000.0, -430.0, -100.0, 1.0, 100.0, 1000.0, 2074.0, 3000.0, 5000.0, 8000.0,
         ] {
@@ -1395,8 +1408,9 @@ mod tests {
 
     #[test]
     fn orthometric_height_shifts_bouguer_anomaly_by_indirect_effect() {
-        // SCIENCE.md 5.7: using H instead of h = H + N shifts the CBA by about 0.1966 N
-        // (0.3086 - 0.1119688 mGal/m with first-order FAC and the slab; Talwani 1998).
+        // Using H instead of h = H + N (the indirect effect of Talwani 1998) shifts the CBA
+        // by about 0.1966 N; derived again here: 0.3086 - 0.1119688 mGal/m with first-order
+        // FAC and the slab (2 pi G rho, CODATA 2018 G, rho 2670).
         let n = 30.0;
         let station = |h| ReductionInput {
             observed_mgal: 979_500.0,
@@ -1416,14 +1430,14 @@ mod tests {
             shift,
             0.1966 * n,
             0.01,
-            "indirect effect 0.1966 N (SCIENCE.md 5.7)",
+            "indirect effect 0.1966 N (0.3086 - 2 pi G rho)",
         );
         let faa_shift = with_h.free_air_anomaly_mgal - with_big_h.free_air_anomaly_mgal;
         close(
             faa_shift,
             0.3086 * n,
             0.01,
-            "indirect effect 0.3086 N (SCIENCE.md 5.7)",
+            "indirect effect 0.3086 N (first-order FAC)",
         );
     }
 
@@ -1436,7 +1450,8 @@ mod tests {
         // gamma0 by the Moritz (2000) form with printed constants, FAC from Heiskanen &
         // Moritz (1967) or 0.3086 h, dg_atm from Wenzel (1985), slab 2 pi G rho h with
         // CODATA 2018 G, Bullard B from the Simpson cap integral minus the slab.
-        // The CBA must agree to 0.001 mGal (SCIENCE.md 5.6 assembly).
+        // The CBA must agree to 0.001 mGal (assembly of Hinze et al. 2005, as in the
+        // module docs).
         struct Case {
             input: ReductionInput,
             printed: [f64; 4], // a, b, gamma_e, gamma_p as printed (Moritz 2000 / TR8350.2)

@@ -11,7 +11,8 @@ pub const G: f64 = 6.674_30e-11;
 /// One milligal in m/s^2 (1 mGal = 1e-5 m/s^2).
 pub const MGAL: f64 = 1e-5;
 
-/// Mean Earth radius used for the curvature drop s^2/(2R), m (SCIENCE.md section 6).
+/// Mean Earth radius used for the curvature drop s^2/(2R), m: the same R0 = 6 371 km as
+/// the Bullard B cap (LaFehr 1991a).
 pub const EARTH_RADIUS_M: f64 = 6_371_000.0;
 
 /// Outer radius of the standard terrain correction (Hayford-Bowie zone O), m.
@@ -90,7 +91,8 @@ mod tests {
 
     #[test]
     fn slab_constant_matches_handbook() {
-        // 2 pi G rho = 0.1119688 mGal/m at 2670 kg/m3 (SCIENCE.md section 1, CODATA 2018 G).
+        // 2 pi G rho = 0.1119688 mGal/m at 2670 kg/m3 (CODATA 2018 G; derived again here:
+        // 2 pi x 6.67430e-11 x 2670 / 1e-5).
         let per_metre = to_mgal(2.0 * std::f64::consts::PI * G * 2670.0);
         assert!((per_metre - 0.111_968_8).abs() < 1e-7);
     }

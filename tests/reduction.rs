@@ -1,7 +1,7 @@
 //! End-to-end checks of the reduction chain and of water bodies through the `ringsum`
 //! binary: every step against an independent computation written out here from its
-//! published source, the anomalies to 0.001 mGal, water against the marine slab and the
-//! lake annulus of SCIENCE.md section 9, and the refused inputs.
+//! published source, the anomalies to 0.001 mGal, water against the marine slab and a
+//! lake annulus (Hammer's ring formula), and the refused inputs.
 
 #[macro_use]
 mod common;
@@ -37,7 +37,8 @@ struct Somigliana {
 }
 
 /// GRS80: Moritz (1980), Bull. Geod. 54:395-405 (gamma_e = 9.7803267715 m/s2,
-/// k = 0.001931851353, e^2 = 0.00669438002290), as tabulated in SCIENCE.md 5.1.
+/// k = 0.001931851353, e^2 = 0.00669438002290), reprinted in Moritz (2000), J. Geodesy
+/// 74(1):128-133.
 const GRS80: Somigliana = Somigliana {
     gamma_e_mgal: 978_032.677_15,
     k: 0.001_931_851_353,
@@ -45,7 +46,8 @@ const GRS80: Somigliana = Somigliana {
 };
 
 /// WGS84: NIMA TR8350.2 (gamma_e = 9.7803253359 m/s2, k = 0.00193185265241,
-/// e^2 = 0.00669437999013), as tabulated in SCIENCE.md 5.1.
+/// e^2 = 0.00669437999013 as printed in boule 0.6.0's documentation; TR8350.2 and the
+/// defining constants give 0.00669437999014, checked in src/reduce.rs).
 const WGS84: Somigliana = Somigliana {
     gamma_e_mgal: 978_032.533_59,
     k: 0.001_931_852_652_41,
@@ -76,8 +78,9 @@ fn slab(rho: f64, h: f64) -> f64 {
     2.0 * PI * G * rho * h * 1e5
 }
 
-/// Bullard B from the cubic fit of SCIENCE.md 5.4 to LaFehr's (1991a) closed form at
-/// 2670 kg/m3 (residual < 0.1 microGal on 0-5 km), scaled linearly in density.
+/// Bullard B from our own least-squares cubic fit to LaFehr's (1991a) closed form at
+/// 2670 kg/m3 with CODATA 2018 G (residual < 0.1 microGal on 0-5 km, checked again with
+/// mpmath), scaled linearly in density.
 fn bullard_b(rho: f64, h: f64) -> f64 {
     rho / 2670.0 * (1.465_189e-3 * h - 3.536_060e-7 * h * h + 1.284_45e-13 * h * h * h)
 }
@@ -503,7 +506,8 @@ fn sea_over_a_flat_floor_gives_the_marine_slab() {
     // A station at sea level over a flat ocean floor at -D (D = 1000 m), 500 m cells.
     // Planar: the missing mass is a cylinder of radius R and height D below the station,
     // 2 pi G rho [D + R - sqrt(R^2 + D^2)], which tends to the slab 2 pi G rho D
-    // (SCIENCE.md 9: contrast 1643 gives 68.9006 mGal for D = 1000 m; 2670 gives 111.9688).
+    // (with CODATA 2018 G, contrast 1643 = 2670 - 1027 gives 68.9006 mGal for D = 1000 m;
+    // 2670 gives 111.9688).
     let d = 1000.0;
     let radius = 100_000.0;
     let dir = TestDir::new();
@@ -552,7 +556,8 @@ fn sea_over_a_flat_floor_gives_the_marine_slab() {
 
 /// Downward attraction at the top of a spherical layer of density `rho` between radii
 /// R0 - D and R0 with the station at R0, limited to the cap of angle S / R0, mGal, by
-/// Simpson integration of the cap integral of SCIENCE.md 5.4 (LaFehr 1991a):
+/// Simpson integration of the radial integral for the cap of LaFehr (1991a), derived again
+/// at `cap_by_simpson` in src/reduce.rs:
 /// g = (pi G rho / R^2) Int r [L + 2r - (R^2 - r^2)/L] dr, L = sqrt(R^2 + r^2 - 2 R r cos a).
 fn spherical_layer(rho: f64, depth: f64, arc: f64) -> f64 {
     let big_r = 6_371_000.0_f64;
@@ -599,7 +604,7 @@ fn sea_in_the_spherical_convention_is_lowered_by_curvature() {
         layer(2670.0)
     );
     // Measured: 0.0018 (water) and 0.0028 mGal (dry) below the layer, the error of
-    // lowering flat prisms by s^2/2R in place of a true sphere (SCIENCE.md 6).
+    // lowering flat prisms by s^2/2R in place of a true sphere.
     assert_close!(
         wet.num(0, "tc_mgal"),
         layer(1643.0),
@@ -615,7 +620,7 @@ fn sea_in_the_spherical_convention_is_lowered_by_curvature() {
     assert!(wet.num(0, "tc_mgal") > flat + 0.5);
 }
 
-/// The lake of SCIENCE.md 9: land at 500 m, an annulus lake from 100 to 1000 m around the
+/// A lake: land at 500 m, an annulus lake from 100 to 1000 m around the
 /// station, 20 m deep, the station at lake level. Cells whose centre lies in the annulus
 /// are lake.
 fn lake_dem(cell: f64) -> Dem {
@@ -641,8 +646,10 @@ fn lake_surface(cell: f64) -> Dem {
 
 #[test]
 fn lake_annulus_converges_to_the_water_contrast() {
-    // SCIENCE.md 9 [N]: TC = 0.124687 mGal with fresh water (contrast 1670), 0.199350 if
-    // the lake were 20 m of air (the annulus formula of SCIENCE.md 7 with h = 20 m).
+    // Derived again here: Hammer's (1939) full-ring formula 2 pi G rho [(r2 - r1) +
+    // sqrt(r1^2 + h^2) - sqrt(r2^2 + h^2)] with r1 = 100 m, r2 = 1000 m, h = 20 m and
+    // CODATA 2018 G gives TC = 0.124687 mGal with fresh water (contrast 1670), 0.199350 if
+    // the lake were 20 m of air (rho 2670).
     let with_water = 0.124_687;
     let as_air = 0.199_350;
     let dir = TestDir::new();

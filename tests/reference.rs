@@ -1,7 +1,8 @@
 //! Checks of the exact prism engine against the outside world: choclo and a 50-digit
 //! evaluation of the prism closed form, the Bouguer slab, analytic bodies on rasterised
-//! DEMs (SCIENCE.md section 7), the curvature table of SCIENCE.md section 6, and a real
-//! DEM with a brute-force prism sum by choclo.
+//! DEMs (closed forms derived again beside each test), distant rings with curvature
+//! against our own ring and spherical-band quadratures, and a real DEM with a brute-force
+//! prism sum by choclo.
 //!
 //! Each check names its source beside it. Tolerances are stated with the reason for them;
 //! convergence checks print their tables (`cargo test --test reference -- --nocapture`).
@@ -20,7 +21,8 @@ use ringsum::zones::{AutoSettings, ZonePlan};
 use std::collections::HashMap;
 use std::f64::consts::PI;
 
-/// Standard density, kg/m3 (Hinze et al. 2005; SCIENCE.md defaults).
+/// Standard density, kg/m3: the conventional 2670 (recommended by Hinze et al. 2005, from
+/// memory).
 const RHO: f64 = 2670.0;
 
 fn config(radius: f64, convention: Convention) -> EngineConfig {
@@ -94,7 +96,7 @@ impl PrismRow {
     /// The terrain kernel is `k(u_ref, u_top) = phi(u_ref) - phi(u_top)` (kernels module
     /// docs); for `u_ref = bottom < u_top = top` it is the upward attraction of the mass
     /// filling [bottom, top] per unit G rho. So `g_up = G rho k(bottom, top)`, which is
-    /// choclo's `gravity_u` (upward component, SCIENCE.md section 2).
+    /// choclo's `gravity_u` (upward component, fixtures/README.md).
     /// `sign_convention_of_the_fixture_comparison` checks this on bodies right above
     /// and below the point.
     fn ringsum_gravity_u(&self) -> f64 {
@@ -171,8 +173,8 @@ const CHOCLO_INACCURATE: [&str; 19] = [
     "slab_200km_1m_10m_above",
 ];
 
-/// Relative tolerance for the closed form (SCIENCE.md header: "1e-9 relative for closed
-/// forms").
+/// Relative tolerance for the closed form: 1e-9 relative, our own choice for closed forms
+/// evaluated in double precision.
 const REL_TOL: f64 = 1e-9;
 
 #[test]
@@ -323,12 +325,12 @@ fn far_rows_beat_choclo() {
 
 #[test]
 fn wide_thin_prism_is_the_bouguer_slab() {
-    // 2 pi G rho h (Bullard A; SCIENCE.md section 1): 0.1119688 mGal per metre at
-    // 2670 kg/m3 with CODATA 2018 G; 0.1119 mGal/m is the usual truncated figure (common
-    // practice). A square prism of thickness h and half-width a = 1e6 h right under the
-    // station: its finite width lowers the slab by h / (2a) = 5e-7 relative (the layer
-    // beyond a, as columns h^2 / 2r^3 per unit area), and the closed form's rounding is
-    // below 1e-9 relative at this width.
+    // 2 pi G rho h (Bullard A): 0.1119688 mGal per metre at 2670 kg/m3 with CODATA 2018 G
+    // (2 pi x 6.67430e-11 x 2670 / 1e-5); 0.1119 mGal/m is the usual truncated figure
+    // (common practice). A square prism of thickness h and half-width a = 1e6 h right
+    // under the station: its finite width lowers the slab by h / (2a) = 5e-7 relative (the
+    // layer beyond a, as columns h^2 / 2r^3 per unit area), and the closed form's rounding
+    // is below 1e-9 relative at this width.
     for h in [1.0, 10.0, 100.0] {
         let half = 1.0e6 * h;
         let k = prism_kernel(-half, half, -half, half, 0.0, -h);
@@ -337,17 +339,17 @@ fn wide_thin_prism_is_the_bouguer_slab() {
         // Truncated to four decimals: the common 0.1119 (common practice).
         assert_eq!((per_metre * 1e4).floor() / 1e4, 0.1119, "slab {h} m");
     }
-    // SCIENCE.md section 1 check: h = 1000 m gives 111.96876 mGal (a = 1e7 h: 5e-8 low).
+    // With CODATA 2018 G, h = 1000 m gives 111.96876 mGal (a = 1e7 h: 5e-8 low).
     let half = 1.0e10;
     let k = prism_kernel(-half, half, -half, half, 0.0, -1000.0);
     assert_close!(to_mgal(G * RHO * k), 111.968_76, 5e-5, "slab 1000 m");
 }
 
 // ---------------------------------------------------------------------------------------
-// Analytic bodies on rasterised DEMs (SCIENCE.md section 7)
+// Analytic bodies on rasterised DEMs (closed forms derived again below)
 // ---------------------------------------------------------------------------------------
 
-/// Hammer's full ring (SCIENCE.md sections 3 and 7):
+/// Hammer's full ring (Hammer 1939; the on-axis cylinder of radius r2 minus that of r1):
 /// 2 pi G rho [(r2 - r1) + sqrt(r1^2 + h^2) - sqrt(r2^2 + h^2)], mGal.
 fn hammer_ring_mgal(r1: f64, r2: f64, h: f64) -> f64 {
     to_mgal(2.0 * PI * G * RHO * ((r2 - r1) + r1.hypot(h) - r2.hypot(h)))
@@ -356,9 +358,10 @@ fn hammer_ring_mgal(r1: f64, r2: f64, h: f64) -> f64 {
 #[test]
 fn annulus_on_a_plain_converges_to_hammers_ring() {
     // Full annulus r1 = 100 m, r2 = 1000 m, h = 200 m around a station on a plain:
-    // 11.622681 mGal (SCIENCE.md section 7, Hammer 1939 ring formula).
+    // 11.622681 mGal (Hammer 1939 ring formula with CODATA 2018 G, derived again with
+    // mpmath).
     let exact = hammer_ring_mgal(100.0, 1000.0, 200.0);
-    assert_close!(exact, 11.622_681, 5e-7, "ring formula vs SCIENCE.md");
+    assert_close!(exact, 11.622_681, 5e-7, "Hammer 1939 ring formula");
     // Cell-centre heights on a grid with the station at a grid node. The ring's edges
     // become staircases; which cells fall inside changes irregularly with the cell size
     // (a lattice-point count), so the error is not monotone at every step: measured
@@ -392,11 +395,14 @@ fn annulus_on_a_plain_converges_to_hammers_ring() {
 #[test]
 fn conical_valley_on_a_square_reproduces_the_sheet_and_converges() {
     // Station at the apex of a conical valley of slope 20 deg on the square of half-width
-    // L = 1000 m: TC = G rho (1 - cos a) 8 L ln(1 + sqrt 2) = 7.57770 mGal (SCIENCE.md
-    // section 7). Flat-topped prisms with cell-centre heights, the station at a grid node,
-    // give the sheet's DEM values (SCIENCE.md section 7, same construction), which must be
-    // reproduced to 1e-4 relative. The DEM holds exactly the square, and the outer radius
-    // (1500 m) exceeds its half-diagonal (1414 m), so every cell counts.
+    // L = 1000 m: TC = G rho (1 - cos a) 8 L ln(1 + sqrt 2) = 7.57770 mGal. Derived again
+    // here: each azimuth's wedge of the cone gives G rho (1 - cos a) times its length, and
+    // the square's edge at L sec(phi) integrates to 8 L ln(1 + sqrt 2). Flat-topped prisms
+    // with cell-centre heights, the station at a grid node, give the DEM values below: our
+    // own direct sum of Nagy prisms over the same cells, computed in double precision
+    // outside ringsum (not kept in the repository), which must be reproduced to 1e-4
+    // relative. The DEM holds exactly the square, and the outer radius (1500 m) exceeds
+    // its half-diagonal (1414 m), so every cell counts.
     let a = 20f64.to_radians();
     let l = 1000.0;
     let analytic = to_mgal(G * RHO * (1.0 - a.cos()) * 8.0 * l * (1.0 + 2f64.sqrt()).ln());
@@ -404,7 +410,7 @@ fn conical_valley_on_a_square_reproduces_the_sheet_and_converges() {
         analytic,
         7.577_70,
         5e-6,
-        "square-cone formula vs SCIENCE.md"
+        "square-cone formula, CODATA 2018 G"
     );
     let sheet = [
         (50.0, 8.55308),
@@ -420,7 +426,7 @@ fn conical_valley_on_a_square_reproduces_the_sheet_and_converges() {
         let tc = tc_mgal(&dem, origin(0.0), 1500.0, Convention::Planar);
         let err = tc - analytic;
         eprintln!(
-            "cone, cell {cell:>4} m: {tc:.6} mGal (sheet {expected:.5}), error vs analytic {err:+.6} ({:+.2} %)",
+            "cone, cell {cell:>4} m: {tc:.6} mGal (prism sum {expected:.5}), error vs analytic {err:+.6} ({:+.2} %)",
             100.0 * err / analytic
         );
         assert_close!(tc, expected, 1e-4 * expected, "cone DEM, cell {cell} m");
@@ -428,7 +434,8 @@ fn conical_valley_on_a_square_reproduces_the_sheet_and_converges() {
         assert!(err > 0.0 && err < previous_err, "cell {cell}: {err}");
         previous_err = err;
     }
-    // At 2 m the bias is 0.5 % (SCIENCE.md: about 0.02 mGal per metre of cell size).
+    // At 2 m the bias is 0.5 % (the prism sums above: about 0.02 mGal per metre of cell
+    // size).
     assert!(previous_err < 0.006 * analytic, "{previous_err}");
 }
 
@@ -436,7 +443,7 @@ fn conical_valley_on_a_square_reproduces_the_sheet_and_converges() {
 fn flat_plain_at_station_height_gives_exactly_zero() {
     // A plain at the station's height has no terrain correction: planar (no mass
     // between the slab and the terrain) and spherical (both faces lowered by the same
-    // drop: the curved plateau gives Bullard C = 0, SCIENCE.md section 6).
+    // drop: the curved plateau gives Bullard C = 0, its curvature being in Bullard B).
     let dem = Dem::from_fn("plain", 200, 200, 10_000.0, 20_000.0, 50.0, |_, _| 1234.5);
     for p in [
         Point {
@@ -458,7 +465,8 @@ fn flat_plain_at_station_height_gives_exactly_zero() {
     }
 }
 
-/// The curvature drop of SCIENCE.md section 6 at distance s: s^2 / (2R), m.
+/// The curvature drop below the station's tangent plane at distance s: s^2 / (2R), m
+/// (R (1 - cos(s/R)) to second order).
 fn drop(s: f64) -> f64 {
     s * s / (2.0 * EARTH_RADIUS_M)
 }
@@ -500,9 +508,11 @@ fn dropped_ring_mgal(r1: f64, r2: f64, dh: f64, drop_at: impl Fn(f64) -> f64) ->
 
 #[test]
 fn distant_rings_with_curvature() {
-    // SCIENCE.md section 6, "Check: full ring, exact sphere vs planar with both ends
-    // dropped vs flat" (h_s = 1000 m, TC in mGal). Columns: ring, dH, exact sphere,
-    // planar both dropped, flat Earth.
+    // Our own values for full rings around a station at h_s = 1000 m (TC in mGal).
+    // Columns: ring, dH, exact sphere (the spherical band between R0 + h_s and
+    // R0 + h_s + dH over the arc angles s/R0, integrated with mpmath quadrature; not kept
+    // in the repository), planar with both ends dropped, flat Earth (these two are
+    // reproduced below by dropped_ring_mgal).
     let table = [
         (20_000.0, 25_000.0, 500.0, 0.11793, 0.11768, 0.13991),
         (50_000.0, 60_000.0, 100.0, -0.00692, -0.00699, 0.00187),
@@ -511,9 +521,8 @@ fn distant_rings_with_curvature() {
     let hs = 1000.0;
     let cell = 250.0;
     for (r1, r2, dh, sphere, dropped, flat) in table {
-        // The sheet's "planar, both dropped" column uses one drop per ring, at its middle
-        // radius (SCIENCE.md: "The planar version uses the ring-mid drop"). The radial
-        // quadrature with that drop reproduces the column to its 5 decimals.
+        // The "planar, both dropped" column uses one drop per ring, at its middle radius.
+        // The radial quadrature with that drop reproduces the column to its 5 decimals.
         let mid = drop(0.5 * (r1 + r2));
         let ring_mid = dropped_ring_mgal(r1, r2, dh, |_| mid);
         assert_close!(ring_mid, dropped, 6e-6, "ring-mid drop, {r1}-{r2} m");
@@ -538,7 +547,7 @@ fn distant_rings_with_curvature() {
         let spherical = tc_mgal(&dem, origin(hs), radius, Convention::Spherical);
         let planar = tc_mgal(&dem, origin(hs), radius, Convention::Planar);
         eprintln!(
-            "ring {:.0}-{:.0} km, dH {dh:+}: DEM spherical {spherical:+.6} (per-cell-drop ring {ring_each:+.6}, sheet both-dropped {dropped:+.5}, exact sphere {sphere:+.5}); DEM planar {planar:+.6} (sheet flat {flat:+.5})",
+            "ring {:.0}-{:.0} km, dH {dh:+}: DEM spherical {spherical:+.6} (per-cell-drop ring {ring_each:+.6}, table both-dropped {dropped:+.5}, exact sphere {sphere:+.5}); DEM planar {planar:+.6} (table flat {flat:+.5})",
             r1 / 1e3,
             r2 / 1e3
         );
@@ -556,9 +565,9 @@ fn distant_rings_with_curvature() {
             planar,
             flat,
             raster * flat.abs() + 5e-6,
-            "planar DEM vs sheet flat"
+            "planar DEM vs table flat"
         );
-        // Against the sheet's both-dropped column, the allowance adds the sheet's own
+        // Against the table's both-dropped column, the allowance adds that column's
         // ring-mid approximation |ring_each - ring_mid| (0.0003 mGal for 20-25 km,
         // 7e-5 and 0.0004 for 50-60 km) and its 5-decimal rounding.
         let allowed = raster * ring_each.abs() + (ring_each - ring_mid).abs() + 5e-6;
@@ -566,10 +575,10 @@ fn distant_rings_with_curvature() {
             spherical,
             dropped,
             allowed,
-            "spherical DEM vs sheet both-dropped"
+            "spherical DEM vs table both-dropped"
         );
         // The per-cell drop is the closer model of the sphere: it is nearer to the exact
-        // spherical band than the sheet's ring-mid value in each of these rows.
+        // spherical band than the table's ring-mid value in each of these rows.
         assert!((ring_each - sphere).abs() < (ring_mid - sphere).abs() + 5e-6);
     }
 }

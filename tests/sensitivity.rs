@@ -302,7 +302,7 @@ fn densities_scale_exactly() {
     assert!(stdout.contains("what density:"), "{stdout}");
 }
 
-/// Hammer's full ring (SCIENCE.md sections 3 and 7, Hammer 1939):
+/// Hammer's full ring (Hammer 1939; the on-axis cylinder of radius r2 minus that of r1):
 /// 2 pi G rho [(r2 - r1) + sqrt(r1^2 + h^2) - sqrt(r2^2 + h^2)], mGal at 2670 kg/m3.
 fn hammer_ring_mgal(r1: f64, r2: f64, h: f64) -> f64 {
     to_mgal(2.0 * PI * G * 2670.0 * ((r2 - r1) + r1.hypot(h) - r2.hypot(h)))
@@ -325,13 +325,14 @@ fn annulus_dem(high: bool) -> Dem {
 
 #[test]
 fn an_annulus_is_a_step_of_hammers_ring_size_at_its_radii() {
-    // SCIENCE.md section 7: r1 = 100 m, r2 = 1000 m, h = 200 m gives 11.622681 mGal.
+    // With CODATA 2018 G, r1 = 100 m, r2 = 1000 m, h = 200 m gives 11.622681 mGal (derived
+    // again with mpmath).
     let ring = hammer_ring_mgal(100.0, 1000.0, 200.0);
     assert_close!(
         ring,
         11.622_681,
         5e-7,
-        "ring formula vs SCIENCE.md section 7"
+        "Hammer 1939 ring formula, CODATA 2018 G"
     );
     let dir = TestDir::new();
     let dem = dir.write_dem("annulus.tif", &annulus_dem(true));

@@ -42,7 +42,7 @@ def build_cases():
         cases.append((name, tuple(float(v) for v in prism),
                       tuple(float(v) for v in point), float(density)))
 
-    # --- Published check values (SCIENCE.md section 2) -------------------
+    # --- Check values P1, P2, P3: our own 7-digit values of the closed form --
     add("p1_science", (-500, 500, 500, 1500, -1500, -500), (0, 0, 0), 1000)
     add("p2_cube_top_centre", (-0.5, 0.5, -0.5, 0.5, -1, 0), (0, 0, 0), 2670)
     # P3: terrain block 100 m x 100 m from station level to +500 m,
@@ -213,7 +213,7 @@ def main():
     by_name = {r[0]: r for r in rows}
     mp_by_name = {r[0]: float(r[1]) for r in mp_rows}
 
-    # Checks against SCIENCE.md section 2 (7 significant digits given there).
+    # Checks against the check values P1, P2, P3 (our own, 7 significant digits).
     # The 50-digit evaluation must match; choclo's own deviation is printed
     # (it loses digits in the far field, see prism_mpmath.csv).
     def check(name, expected_mgal, sign):
@@ -223,7 +223,7 @@ def main():
         rel = abs(got - expected_mgal) / abs(expected_mgal)
         status = "ok" if rel_mp < 5e-7 else "MISMATCH"
         print(f"check {name}: 50-digit {got_mp:.10g}, choclo {got:.10g} mGal, "
-              f"SCIENCE.md {expected_mgal} ({status}; rel 50-digit {rel_mp:.1e}, "
+              f"check value {expected_mgal} ({status}; rel 50-digit {rel_mp:.1e}, "
               f"choclo {rel:.1e})")
         return rel_mp < 5e-7
 
@@ -254,7 +254,7 @@ def main():
     for r in worst:
         print(f"  {r[0]}: {r[2]:.3e}")
     if not ok:
-        sys.exit("a SCIENCE.md check value did not match")
+        sys.exit("a P1/P2/P3 check value did not match")
 
 
 if __name__ == "__main__":

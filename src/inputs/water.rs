@@ -9,7 +9,7 @@
 //!
 //! In a wet cell the missing mass against the Bouguer reference is air from `W` up to the
 //! station (contrast `rho_r`) plus water from `B` up to `W` (contrast `rho_r - rho_w`),
-//! both lowered by the curvature drop in the spherical convention (SCIENCE.md section 9).
+//! both lowered by the curvature drop in the spherical convention (derived again below).
 //! Write `K(H)` for the engine's kernel sum (m) of the terrain heights `H`: the terrain
 //! correction of rock of density `rho` is `G rho K(B)`, and `K` is additive in height
 //! intervals (each element integrates the vertical kernel from the station's level, both
@@ -25,7 +25,7 @@
 //! raster has no water surface get the same value in both grids too. For a station at sea
 //! level above an ocean of depth `D` (`W = 0` = the station's height, so `K(W) = 0`) this
 //! gives `G (rho_r - rho_w) K(B)`, which tends to `2 pi G (rho_r - rho_w) D`, the marine
-//! Bouguer slab (SCIENCE.md section 9; checked in `tests/reduction.rs`).
+//! Bouguer slab (Bullard A with the rock-water contrast; checked in `tests/reduction.rs`).
 //!
 //! Both water bodies are run with the **prisms** inner model, whatever the rock run uses:
 //! the surface inner model shifts the surface under the station to the station's height,

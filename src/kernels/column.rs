@@ -14,8 +14,11 @@
 //! when `|u| << r` (DESIGN.md, numerics). Sign as in [`crate::kernels`].
 //!
 //! # References
-//! SCIENCE.md section 2 ("far-field approximations"); the vertical line mass is the
-//! classical far-zone element of prism methods (e.g. Kane 1962 compares it with the ring).
+//! Derived again here: the upward pull per unit `G rho` and area of a mass element at
+//! height `u` is `u / (r^2 + u^2)^(3/2)`, whose integral over `u` from `u1` to `u2` is the
+//! first form. The vertical line mass is the classical far-zone element of prism methods;
+//! the test `far_field_tends_to_column` in [`crate::kernels::prism`] checks that the
+//! exact prism of Nagy et al. (2000) tends to it.
 
 /// Column kernel `c(r, u1, u2)` (1/m), see the module docs. `r > 0`.
 ///

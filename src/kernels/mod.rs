@@ -15,9 +15,10 @@
 //! `u_top` the terrain, `G rho k` is that place's part of the terrain correction: a hill
 //! above the station (mass the Bouguer slab lacks, pulling up) and a valley below it (slab
 //! mass that is not there) both give positive values. A hill whose whole column sits below
-//! the station's horizon (curvature) gives a negative value, as it should (SCIENCE.md
-//! section 6). The unit of `k` is metres for prisms and sectors (volume integrals over
-//! distance squared) and 1/m for the column kernel per unit area.
+//! the station's horizon (curvature) gives a negative value, as it should: distant
+//! terrain adjusted for curvature can give negative terrain corrections (Nowell 1999).
+//! The unit of `k` is metres for prisms and sectors (volume integrals over distance
+//! squared) and 1/m for the column kernel per unit area.
 //!
 //! # Kernels
 //! - [`prism`](mod@prism): right rectangular prism, Nagy et al. (2000) closed form, with a quadrature

@@ -15,8 +15,9 @@
 //! `k(u_ref, u_top) = phi(u_ref) - phi(u_top)`.
 //!
 //! # Singularities
-//! The terms have removable singularities (SCIENCE.md section 2): `ln(n + r)` tends to
-//! `-inf` on the line through an edge where `e = u = 0`, but its multiplier `e` is then 0;
+//! The terms have removable singularities (derived again here: each limit follows from
+//! its multiplier): `ln(n + r)` tends to `-inf` on the line through an edge where
+//! `e = u = 0`, but its multiplier `e` is then 0;
 //! `atan(e n / (u r))` is undefined at `u = 0` (the station's own level, the normal case in
 //! terrain work), where its multiplier `u` is 0. A term whose multiplier is exactly zero
 //! is skipped (its limit is 0); this also covers a station on a vertex (`r = 0`).
@@ -221,7 +222,9 @@ mod tests {
 
     #[test]
     fn check_values_p1_p2() {
-        // SCIENCE.md section 2, P1 and P2 (own 50-digit values, agreeing with choclo 0.3.2).
+        // Check values P1 and P2: our own values of the closed form, reproduced at 50
+        // digits with mpmath by scripts/reference/make_prism_fixture.py (rows p1_science and
+        // p2_cube_top_centre of fixtures/prism_mpmath.csv), agreeing with choclo 0.3.2.
         let p1 = prism_kernel(-500.0, 500.0, 500.0, 1500.0, -500.0, -1500.0);
         assert!((mgal(p1, 1000.0) - 2.366349).abs() < 5e-7);
         let p2 = prism_kernel(-0.5, 0.5, -0.5, 0.5, 0.0, -1.0);
@@ -230,8 +233,9 @@ mod tests {
 
     #[test]
     fn check_values_p3_terrain_block() {
-        // SCIENCE.md section 2, P3: 100 m x 100 m block from station level to +500 m whose
-        // centre is r metres east; 50-digit reference values.
+        // Check values P3: 100 m x 100 m block from station level to +500 m whose centre
+        // is r metres east; our own values, reproduced at 50 digits with mpmath by
+        // scripts/reference/make_prism_fixture.py (rows p3_terrain_r*).
         let cases = [
             (100.0, 1.501407),
             (200.0, 0.5699290),
@@ -255,7 +259,8 @@ mod tests {
 
     #[test]
     fn wide_prism_is_bouguer_slab() {
-        // 2 pi G rho h = 0.1119688 mGal per metre at 2670 kg/m3 (SCIENCE.md section 1).
+        // 2 pi G rho h = 0.1119688 mGal per metre at 2670 kg/m3 (CODATA 2018 G; derived
+        // again here: 2 pi x 6.67430e-11 x 2670 / 1e-5).
         let half = 1.0e7;
         let k = prism_kernel(-half, half, -half, half, 0.0, -1.0);
         assert!((mgal(k, 2670.0) - 0.111_968_8).abs() < 1e-6);

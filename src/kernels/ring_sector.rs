@@ -8,7 +8,8 @@
 //! ```
 //!
 //! which for `u1 = 0`, `u2 = h` is Hammer's compartment formula
-//! `theta [ (r2 - r1) + sqrt(r1^2 + h^2) - sqrt(r2^2 + h^2) ]` (SCIENCE.md section 3). It is
+//! `theta [ (r2 - r1) + sqrt(r1^2 + h^2) - sqrt(r2^2 + h^2) ]` (Hammer 1939; derived
+//! again by the integration above). It is
 //! evaluated in the rearranged form
 //! `theta (u2^2 - u1^2) [ 1/(S11 + S12) - 1/(S21 + S22) ]`, `S_ij = sqrt(r_i^2 + u_j^2)`,
 //! which keeps its digits when the heights are small against the radii.
@@ -22,7 +23,7 @@
 ///
 /// # Examples
 /// A full ring of height 200 m from 100 m to 1000 m is 11.622681 mGal at 2670 kg/m3
-/// (SCIENCE.md section 7):
+/// (Hammer's formula with theta = 2 pi and CODATA 2018 G, derived again here):
 /// ```
 /// use ringsum::kernels::ring_sector_kernel;
 /// let k = ring_sector_kernel(2.0 * std::f64::consts::PI, 100.0, 1000.0, 0.0, 200.0);
@@ -53,11 +54,11 @@ mod tests {
 
     #[test]
     fn hammer_compartment_check_values() {
-        // SCIENCE.md section 3 table, computed from Hammer's (1939) radii in feet, rho 2670:
-        // zone B (6.56-54.6 ft, 4 compartments) h = 10 m: 0.15186, h = 100 m: 0.37194;
-        // zone C (54.6-175 ft, 6) h = 100 m: 0.46162; zone D (175-558 ft, 6) h = 50 m:
-        // 0.234637 mGal. (The sheet's zone-B h = 5 m figure, 0.074185, does not follow
-        // from these radii, which give 0.074196; the table rows above do.)
+        // Our own values of Hammer's (1939) compartment formula, rho 2670, CODATA 2018 G,
+        // with his zone radii in feet and compartment counts as we recall them (from
+        // memory): zone B (6.56-54.6 ft, 4 compartments) h = 10 m: 0.15186, h = 100 m:
+        // 0.37194; zone C (54.6-175 ft, 6) h = 100 m: 0.46162; zone D (175-558 ft, 6)
+        // h = 50 m: 0.234637 mGal. (Zone B at h = 5 m gives 0.074196 from these radii.)
         let ft = 0.3048;
         let cases = [
             (4.0, 6.56, 54.6, 10.0, 0.15186, 5e-6),
@@ -78,7 +79,8 @@ mod tests {
     #[test]
     fn full_ring_from_zero_is_cylinder_on_axis() {
         // On-axis vertical cylinder, radius a = 100, length 50, station on its top face:
-        // 2 pi G rho [L + a - sqrt(a^2 + L^2)] = 4.276826 mGal (SCIENCE.md section 7).
+        // 2 pi G rho [L + a - sqrt(a^2 + L^2)] = 4.276826 mGal (CODATA 2018 G; derived
+        // again here: the full ring from radius 0 is that cylinder).
         let k = ring_sector_kernel(2.0 * PI, 0.0, 100.0, 0.0, -50.0);
         assert!((mgal(k) - 4.276826).abs() < 1e-6);
         // Station 20 m above the top face: 3.349527 mGal.
