@@ -119,7 +119,7 @@ impl Settings {
         let outer = self.engine.outer_radius_m;
         Ok(match &self.zones {
             ZonesChoice::Auto => ZonePlan::auto(cell_m, outer, &AutoSettings::default()),
-            ZonesChoice::Hammer => ZonePlan::hammer(outer),
+            ZonesChoice::Hammer => ZonePlan::hammer(cell_m, outer),
             ZonesChoice::File(path) => ZonePlan::from_file(path)?.fitted_to(outer)?,
         })
     }
@@ -374,9 +374,8 @@ pub fn correction_table_with(
     if water_mgal.is_some() {
         headers.push("tc_water_mgal".to_string());
     }
-    if plan.per_ring_columns {
-        headers.extend(plan.rings.iter().map(|r| format!("tc_{}_mgal", r.name)));
-    }
+    let zone_columns = plan.zone_columns();
+    headers.extend(zone_columns.iter().map(|z| format!("tc_{}_mgal", z.name)));
     headers.push("coverage".to_string());
     let mut table = Table {
         headers,
@@ -424,11 +423,14 @@ pub fn correction_table_with(
         if water.is_some() {
             row.push(fixed(water_rounded, 4, &what("tc_water_mgal"))?);
         }
-        if plan.per_ring_columns {
-            let rings: Vec<f64> = r.rings_m.iter().map(|&k| scale(k)).collect();
-            let (_, rings) = parts_adding_up(tc_rounded - groups[0] - water_rounded, &rings, 4);
-            for (ring, v) in plan.rings.iter().zip(rings) {
-                row.push(fixed(v, 4, &what(&format!("tc_{}_mgal", ring.name)))?);
+        if !zone_columns.is_empty() {
+            let zones: Vec<f64> = zone_columns
+                .iter()
+                .map(|z| scale(r.rings_m[z.rings.clone()].iter().sum()))
+                .collect();
+            let (_, zones) = parts_adding_up(tc_rounded - groups[0] - water_rounded, &zones, 4);
+            for (zone, v) in zone_columns.iter().zip(zones) {
+                row.push(fixed(v, 4, &what(&format!("tc_{}_mgal", zone.name)))?);
             }
         }
         row.push(fixed(r.coverage, 4, &what("coverage"))?);

@@ -238,8 +238,8 @@ fn legacy_values(table: &StationTable, col: usize, bad: &mut Vec<(usize, String)
 struct ZoneColumn {
     /// Zone name (A for the station zone, else the plan ring's name).
     zone: String,
-    /// `None` for the inner zone, else the ring's index in the plan.
-    ring: Option<usize>,
+    /// `None` for the inner zone, else the zone's rings in the plan.
+    ring: Option<std::ops::Range<usize>>,
     legacy: LegacyColumn,
 }
 
@@ -275,6 +275,7 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
         None => table.find_column(LEGACY_NAMES),
     };
     let legacy = legacy_col.map(|c| legacy_values(table, c, &mut bad));
+    let plan_zones = plan.zone_columns();
     let mut zone_columns = Vec::new();
     let mut unmatched_zone_columns = Vec::new();
     for (c, h) in table.headers.iter().enumerate() {
@@ -285,20 +286,18 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
         if Some(c) == legacy_col || zone.is_empty() || zone == "mgal" {
             continue;
         }
-        let ring = plan
-            .rings
+        let plan_zone = plan_zones
             .iter()
-            .position(|r| r.name.eq_ignore_ascii_case(zone));
-        let matched =
-            settings.zones == crate::app::ZonesChoice::Hammer && (ring.is_some() || zone == "a");
+            .find(|z| z.name.eq_ignore_ascii_case(zone));
+        let matched = settings.zones == crate::app::ZonesChoice::Hammer
+            && (plan_zone.is_some() || zone == "a");
         if matched {
             zone_columns.push(ZoneColumn {
-                zone: if zone == "a" {
-                    "A".to_string()
-                } else {
-                    plan.rings[ring.expect("matched ring")].name.clone()
+                zone: match plan_zone {
+                    Some(z) => z.name.clone(),
+                    None => "A".to_string(),
                 },
-                ring,
+                ring: plan_zone.map(|z| z.rings.clone()),
                 legacy: legacy_values(table, c, &mut bad),
             });
         } else {
@@ -306,7 +305,7 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
         }
     }
     // Zones in plan order (A first).
-    zone_columns.sort_by_key(|z| z.ring.map(|r| r + 1).unwrap_or(0));
+    zone_columns.sort_by_key(|z| z.ring.as_ref().map(|r| r.start + 1).unwrap_or(0));
     if !bad.is_empty() && !args.skip_bad_legacy {
         let items: Vec<String> = bad.iter().map(|(_, s)| s.clone()).collect();
         bail!(
@@ -503,9 +502,9 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
         }
         for (k, z) in zone_columns.iter().enumerate() {
             let new = results[i].as_ref().map(|r| {
-                round4(mgal(match z.ring {
+                round4(mgal(match &z.ring {
                     None => r.inner_m,
-                    Some(ring) => r.rings_m[ring],
+                    Some(rings) => r.rings_m[rings.clone()].iter().sum(),
                 }))
             });
             let old = z.legacy.values[i];

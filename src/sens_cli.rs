@@ -21,8 +21,8 @@ Radii: the inner zone's edge, then the E12 series (1, 1.2, 1.5, 1.8, 2.2, 2.7, 3
 given; the sweep always ends at --outer-radius. The stations are computed once with the zone
 plan cut at these radii: an element (cell, block) counts to the radius its centroid lies
 within, so an intermediate value is exact to the size of the blocks there, and the value at
-the outer radius is the `correct` value. Radii inside a sector ring (the hammer preset, plan
-files) move to the ring's nearest edge, since a compartment is integrated whole.
+the outer radius is the `correct` value. Radii inside a sector ring (plan files with
+method = \"sectors\") move to the ring's nearest edge, since a compartment is integrated whole.
 
 95% and 99%: the first radius from which on the TC stays within 5% (1%) of its final value.
 

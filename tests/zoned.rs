@@ -148,6 +148,8 @@ fn surface_inner_model_meets_the_inclined_plane() {
             inner: InnerZone::Disc { radius_m: radius },
             rings: vec![],
             per_ring_columns: false,
+            hard_edges_m: vec![],
+            inner_column_radius_m: None,
         };
         let surface = engine(
             &dem,
@@ -252,6 +254,8 @@ fn zones_tile_the_disc_exactly() {
             RingMethod::Sectors { compartments: 12 },
         )],
         per_ring_columns: true,
+        hard_edges_m: vec![],
+        inner_column_radius_m: None,
     };
     let r = engine(
         &dem,
