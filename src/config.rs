@@ -352,7 +352,7 @@ impl TcSettings {
         let outer = self.engine.outer_radius_m;
         Ok(match &self.zones {
             ZonesChoice::Auto => ZonePlan::auto(cell_m, outer, &AutoSettings::default()),
-            ZonesChoice::Hammer => ZonePlan::hammer(outer),
+            ZonesChoice::Hammer => ZonePlan::hammer(cell_m, outer),
             ZonesChoice::File(plan) => plan.clone().fitted_to(outer)?,
         })
     }

@@ -3,16 +3,24 @@
 //!
 //! A plan is an inner zone and a list of contiguous rings out to the outer radius:
 //! - the inner zone: the `(2m+1) x (2m+1)` DEM cells around the station's cell (or a
-//!   disc, for the Hammer preset's zone A);
+//!   disc, for a plan file's `inner_radius`);
 //! - `Prisms` rings: full-resolution right rectangular prisms (the near zone);
 //! - `Blocks` rings: pyramid blocks whose side stays below `ratio` times their distance,
 //!   evaluated with their height statistics (the middle zone);
 //! - `Sectors` rings: annular sectors with `compartments` compartments, heights sampled
-//!   from the pyramid (the far zone, in the manner of Hammer's zones).
+//!   from the pyramid (the chart-era way of Hammer 1939; see [`RingMethod::Sectors`]).
 //!
 //! Prism and block rings come first (they are walked together as one quadtree of
 //! blocks, which keeps the partition exact: every cell belongs to exactly one element);
 //! sector rings follow.
+//!
+//! Where a ring's part goes: an element of the quadtree goes to the ring holding its
+//! centroid, except at the plan's hard edges ([`ZonePlan::hard_edges_m`]), where a block
+//! straddling the edge is split into the cells whose centres lie inside and those
+//! outside, so that a ring holds exactly the cells whose centres lie in it (as the exact
+//! method counts them). The Hammer plan ([`ZonePlan::hammer`]) is the automatic plan cut
+//! at Hammer's radii, with hard edges there and the inner column limited to zone A
+//! ([`ZonePlan::inner_column_radius_m`]).
 
 use crate::units::{format_length, parse_length_m};
 use std::f64::consts::PI;
@@ -25,7 +33,18 @@ pub enum RingMethod {
     Prisms,
     /// Pyramid blocks no larger than `ratio` times their distance from the station.
     Blocks { ratio: f64 },
-    /// One annulus of `compartments` equal sectors.
+    /// One annulus of `compartments` equal sectors of mean height (with second-order
+    /// terms for the roughness and radial trend within each; [`crate::engine::sectors`]).
+    ///
+    /// The chart-era way (Hammer 1939), kept for plan files: it is the less accurate
+    /// one. Measured with Hammer's radii and compartment counts (zones B-M, 2 m to 10 km,
+    /// the 2 m zone A disc as inner zone) against `--method exact` on the demo's 30 m DEM,
+    /// 40 stations, either convention: +0.06 to +1.11 mGal (0.4 % to 2.9 %, up to 5.8
+    /// times the target max(0.01 mGal, 0.5 %)) with the surface inner model, up to 6.7
+    /// times the target with the prisms inner model; on the real-DEM fixture at 5 km up to
+    /// 17 times. The same radii as the automatic plan's prisms and blocks
+    /// ([`ZonePlan::hammer`]) stay within 0.05 of the target (`cargo run --release
+    /// --example hammer_zones`).
     Sectors { compartments: usize },
 }
 
@@ -99,9 +118,37 @@ pub struct ZonePlan {
     /// Where the plan came from (auto, hammer, or a file).
     pub source: String,
     pub inner: InnerZone,
+    /// Contiguous rings out to the outer radius. Consecutive rings may share a name: they
+    /// are pieces of one zone (of the Hammer plan, or of a plan cut by
+    /// [`ZonePlan::split_at`]), reported together ([`ZonePlan::zone_columns`]).
     pub rings: Vec<Ring>,
-    /// Whether per-ring columns are written (the Hammer preset and custom plans).
+    /// Whether per-zone columns are written (the Hammer preset and custom plans).
     pub per_ring_columns: bool,
+    /// Radii (m, strictly between 0 and the outer radius, increasing) at which the
+    /// attribution to rings is exact by cell centre: a pyramid block straddling one is
+    /// evaluated as its cells inside and its cells outside, each part in its own ring,
+    /// and the inner zone's surface quadrature breaks its rays there. Elsewhere an
+    /// element goes to the ring holding its centroid.
+    pub hard_edges_m: Vec<f64>,
+    /// Radius (m) of the inner column when it is less than the inner zone: the inner
+    /// column then holds only what lies within this radius of the station (by cell
+    /// centre, or by quadrature point of the surface inner model), and the rest of the
+    /// inner zone goes to the rings at its radii. `None`: the whole inner zone is the
+    /// inner column. (A disc inner zone, a field inner-zone value's, is always whole.)
+    pub inner_column_radius_m: Option<f64>,
+}
+
+/// One output column of a plan: consecutive rings of one name.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ZoneColumn {
+    /// The zone's name (`tc_<name>_mgal`).
+    pub name: String,
+    /// Inner radius of its first ring, m.
+    pub inner_m: f64,
+    /// Outer radius of its last ring, m.
+    pub outer_m: f64,
+    /// Indices of its rings in the plan.
+    pub rings: std::ops::Range<usize>,
 }
 
 /// Why a plan is not usable; each message names the ring and what to do.
@@ -111,11 +158,12 @@ pub enum ZoneError {
     Invalid { file: String, detail: String },
 }
 
-/// Hammer's (1939) zones B to M: outer radius in feet and compartments. Zone B starts
-/// at 6.56 ft (2 m); zone A inside it is the station zone.
+/// Hammer's (1939) zones B to M: outer radius in feet and the compartments of his chart
+/// (used by the chart-era sector plans, `method = "sectors"`). Zone B starts at 6.56 ft
+/// (2 m); zone A inside it is the station zone.
 ///
-/// Radii and counts as in SCIENCE.md section 3 (there marked "from memory"; the outer
-/// radius 71 996 ft = 21.94 km agrees with the "about 13.6 miles" of Sandberg 1959).
+/// Radii and counts from memory (Hammer 1939, not confirmed in a retrieved copy); the
+/// outer radius 71 996 ft = 21.94 km agrees with the "about 13.6 miles" of Sandberg 1959.
 pub const HAMMER_ZONES: [(&str, f64, usize); 12] = [
     ("B", 54.6, 4),
     ("C", 175.0, 6),
@@ -133,6 +181,34 @@ pub const HAMMER_ZONES: [(&str, f64, usize); 12] = [
 
 /// Inner radius of Hammer's zone B (6.56 ft), m.
 pub const HAMMER_ZONE_A_RADIUS_M: f64 = 6.56 * FOOT_M;
+
+/// Ratio of the radii of the rings that continue Hammer's zones beyond zone M: zone M's
+/// own, 71 996 / 48 365 ft.
+pub const HAMMER_CONTINUED_RATIO: f64 = 71_996.0 / 48_365.0;
+
+/// Hammer's zones from B out to `outer_m` (m): name, inner and outer radius, the last
+/// one cut at `outer_m`; beyond zone M rings with zone M's ratio, named `beyondM1`,
+/// `beyondM2`, ... (Hammer 1939).
+pub fn hammer_zone_radii(outer_m: f64) -> Vec<(String, f64, f64)> {
+    let mut zones = Vec::new();
+    let mut r1 = HAMMER_ZONE_A_RADIUS_M;
+    for (name, outer_ft, _) in HAMMER_ZONES {
+        if r1 >= outer_m {
+            return zones;
+        }
+        let r2 = outer_ft * FOOT_M;
+        zones.push((name.to_string(), r1, r2.min(outer_m)));
+        r1 = r2;
+    }
+    let mut k = 1;
+    while r1 < outer_m {
+        let r2 = (r1 * HAMMER_CONTINUED_RATIO).min(outer_m);
+        zones.push((format!("beyondM{k}"), r1, r2));
+        r1 = r2;
+        k += 1;
+    }
+    zones
+}
 
 /// The international foot, m.
 pub const FOOT_M: f64 = 0.3048;
@@ -248,40 +324,72 @@ impl ZonePlan {
             },
             rings,
             per_ring_columns: false,
+            hard_edges_m: Vec::new(),
+            inner_column_radius_m: None,
         }
     }
 
-    /// Hammer's (1939) zones B to M, then rings continued geometrically (ratio of zone M,
-    /// 16 compartments) to the outer radius; truncated at the outer radius.
-    pub fn hammer(outer_m: f64) -> ZonePlan {
+    /// Hammer's (1939) zones at full accuracy: the automatic plan for cell size `cell_m`
+    /// cut at Hammer's radii (zones B to M, then rings continued with zone M's ratio to
+    /// the outer radius; [`hammer_zone_radii`]). Each piece keeps the integration method
+    /// and summary group of the automatic ring it came from and is named after its
+    /// Hammer zone, so a zone that spans two methods (prisms, then blocks) is two
+    /// consecutive rings of one name. Every zone radius is a hard edge (each zone holds
+    /// exactly the cells whose centres lie in it), and the inner column is zone A, the
+    /// part of the inner cell square within 2 m of the station; the rest of the square
+    /// goes to zones B, C, ... at its radii.
+    pub fn hammer(cell_m: f64, outer_m: f64) -> ZonePlan {
+        let auto = ZonePlan::auto(cell_m, outer_m, &AutoSettings::default());
+        let zones = hammer_zone_radii(outer_m);
         let mut rings = Vec::new();
-        let mut r1 = HAMMER_ZONE_A_RADIUS_M;
-        for (name, outer_ft, n) in HAMMER_ZONES {
-            let r2 = outer_ft * FOOT_M;
-            if r1 >= outer_m {
-                break;
+        for (name, z1, z2) in &zones {
+            for ring in &auto.rings {
+                let (a, b) = (ring.inner_m.max(*z1), ring.outer_m.min(*z2));
+                if b > a {
+                    rings.push(Ring {
+                        name: name.clone(),
+                        inner_m: a,
+                        outer_m: b,
+                        ..ring.clone()
+                    });
+                }
             }
-            let method = RingMethod::Sectors { compartments: n };
-            rings.push(Ring::new(name, r1, r2.min(outer_m), method));
-            r1 = r2;
         }
-        let q = 71996.0 / 48365.0;
-        let mut k = 1;
-        while r1 < outer_m {
-            let r2 = (r1 * q).min(outer_m);
-            let method = RingMethod::Sectors { compartments: 16 };
-            rings.push(Ring::new(format!("beyondM{k}"), r1, r2, method));
-            r1 = r2;
-            k += 1;
-        }
+        let mut hard_edges_m = vec![HAMMER_ZONE_A_RADIUS_M];
+        hard_edges_m.extend(zones.iter().map(|z| z.2));
+        hard_edges_m.retain(|&r| r > 0.0 && r < outer_m);
         ZonePlan {
             source: "hammer".into(),
-            inner: InnerZone::Disc {
-                radius_m: HAMMER_ZONE_A_RADIUS_M.min(outer_m),
-            },
+            inner: auto.inner,
             rings,
             per_ring_columns: true,
+            hard_edges_m,
+            inner_column_radius_m: Some(HAMMER_ZONE_A_RADIUS_M),
         }
+    }
+
+    /// The output columns: consecutive rings of one name together, in plan order; empty
+    /// when the plan writes no per-zone columns.
+    pub fn zone_columns(&self) -> Vec<ZoneColumn> {
+        if !self.per_ring_columns {
+            return Vec::new();
+        }
+        let mut columns: Vec<ZoneColumn> = Vec::new();
+        for (i, ring) in self.rings.iter().enumerate() {
+            match columns.last_mut() {
+                Some(column) if column.name == ring.name => {
+                    column.outer_m = ring.outer_m;
+                    column.rings.end = i + 1;
+                }
+                _ => columns.push(ZoneColumn {
+                    name: ring.name.clone(),
+                    inner_m: ring.inner_m,
+                    outer_m: ring.outer_m,
+                    rings: i..i + 1,
+                }),
+            }
+        }
+        columns
     }
 
     /// Reads a plan from a TOML file (see [`ZonePlan::from_toml`]).
@@ -485,17 +593,32 @@ impl ZonePlan {
             rings.push(ring);
             previous_outer = outer;
         }
+        // Every ring edge is a hard edge: each ring holds exactly the cells whose centres
+        // lie in it.
+        let mut hard_edges_m: Vec<f64> = Vec::new();
+        for ring in &rings {
+            for r in [ring.inner_m, ring.outer_m] {
+                if r > 0.0 && hard_edges_m.last().map_or(true, |&last| r > last) {
+                    hard_edges_m.push(r);
+                }
+            }
+        }
+        // The last ring's outer edge is the plan's end, not an edge inside it.
+        hard_edges_m.pop();
         let plan = ZonePlan {
             source: source.to_string(),
             inner,
             rings,
             per_ring_columns: true,
+            hard_edges_m,
+            inner_column_radius_m: None,
         };
         plan.check_order().map_err(bad)?;
+        plan.check_unique_names().map_err(bad)?;
         Ok(plan)
     }
 
-    /// Prism and block rings must come before sector rings; ring names are unique.
+    /// Prism and block rings must come before sector rings.
     fn check_order(&self) -> Result<(), String> {
         let mut seen_sectors = false;
         for (i, ring) in self.rings.iter().enumerate() {
@@ -512,6 +635,11 @@ impl ZonePlan {
                 _ => {}
             }
         }
+        Ok(())
+    }
+
+    /// A plan file's ring names are unique (each is its own output column).
+    fn check_unique_names(&self) -> Result<(), String> {
         let mut names = std::collections::HashSet::new();
         for ring in &self.rings {
             if !names.insert(ring.name.as_str()) {
@@ -542,15 +670,17 @@ impl ZonePlan {
         if let Some(last) = self.rings.last_mut() {
             last.outer_m = last.outer_m.min(outer_m);
         }
+        self.hard_edges_m.retain(|&r| r < outer_m);
         Ok(self)
     }
 
     /// The plan with its prism and block rings cut at `radii_m` (m), for sweeps over the
-    /// outer radius. Each piece keeps its ring's method and summary group and is named
-    /// `<ring>_<k>`; sector rings are kept whole (a compartment is integrated as one
-    /// piece, so cutting one would change the result). The engine walks the same
-    /// elements with either plan: only the attribution of an element to a ring (by its
-    /// centroid) becomes finer, so the pieces add up to the rings they came from.
+    /// outer radius. Each piece keeps its ring's name, method and summary group (so the
+    /// plan's zone columns are unchanged); sector rings are kept whole (a compartment is
+    /// integrated as one piece, so cutting one would change the result). The cuts are
+    /// not hard edges (the plan keeps its own): the engine walks the same elements with
+    /// either plan, only the attribution of an element to a ring (by its centroid)
+    /// becomes finer, so the pieces add up to the rings they came from.
     pub fn split_at(&self, radii_m: &[f64]) -> ZonePlan {
         let mut rings = Vec::new();
         for ring in &self.rings {
@@ -569,9 +699,8 @@ impl ZonePlan {
             let mut edges = vec![ring.inner_m];
             edges.extend(cuts);
             edges.push(ring.outer_m);
-            for (k, w) in edges.windows(2).enumerate() {
+            for w in edges.windows(2) {
                 let mut piece = ring.clone();
-                piece.name = format!("{}_{}", ring.name, k + 1);
                 piece.inner_m = w[0];
                 piece.outer_m = w[1];
                 rings.push(piece);
@@ -615,44 +744,65 @@ mod tests {
     use super::*;
 
     #[test]
-    fn hammer_preset_radii_and_counts() {
-        // Hammer (1939) zones B-M as listed in SCIENCE.md section 3 (metres are feet x 0.3048).
-        let plan = ZonePlan::hammer(71_996.0 * FOOT_M);
-        let names: Vec<&str> = plan.rings.iter().map(|r| r.name.as_str()).collect();
-        assert_eq!(
-            names,
-            ["B", "C", "D", "E", "F", "G", "H", "I", "J", "K", "L", "M"]
-        );
-        let counts: Vec<usize> = plan
-            .rings
-            .iter()
-            .map(|r| match r.method {
-                RingMethod::Sectors { compartments } => compartments,
-                _ => 0,
-            })
-            .collect();
-        assert_eq!(counts, [4, 6, 6, 8, 8, 12, 12, 12, 16, 16, 16, 16]);
+    fn hammer_plan_is_the_auto_plan_cut_at_hammers_radii() {
+        // Hammer (1939) zones B-M (from memory; metres are feet x 0.3048).
         let metres = [
             16.6, 53.3, 170.1, 390.1, 894.9, 1529.5, 2614.6, 4469.0, 6652.6, 9903.0, 14741.7,
             21944.4,
         ];
-        for (ring, m) in plan.rings.iter().zip(metres) {
+        let counts: Vec<usize> = HAMMER_ZONES.iter().map(|z| z.2).collect();
+        assert_eq!(counts, [4, 6, 6, 8, 8, 12, 12, 12, 16, 16, 16, 16]);
+        let outer = 71_996.0 * FOOT_M;
+        let plan = ZonePlan::hammer(30.0, outer);
+        let auto = ZonePlan::auto(30.0, outer, &AutoSettings::default());
+        let columns = plan.zone_columns();
+        let names: Vec<&str> = columns.iter().map(|z| z.name.as_str()).collect();
+        assert_eq!(
+            names,
+            ["B", "C", "D", "E", "F", "G", "H", "I", "J", "K", "L", "M"]
+        );
+        assert!((columns[0].inner_m - 2.0).abs() < 0.01);
+        for (column, m) in columns.iter().zip(metres) {
             assert!(
-                (ring.outer_m - m).abs() < 0.06,
-                "{} {} vs {}",
-                ring.name,
-                ring.outer_m,
-                m
+                (column.outer_m - m).abs() < 0.06,
+                "{} {} vs {m}",
+                column.name,
+                column.outer_m
             );
         }
-        assert!((plan.rings[0].inner_m - 2.0).abs() < 0.01);
-        // Continued beyond M to 166.7 km with zone M's ratio.
-        let long = ZonePlan::hammer(166_735.0);
-        assert!(long.rings.len() > 12);
-        assert_eq!(long.rings.last().unwrap().outer_m, 166_735.0);
-        for w in long.rings.windows(2) {
+        // Zone E spans the automatic plan's prisms (to 7.3 cells, 219 m) and blocks: two
+        // consecutive rings of one name, each with its automatic ring's method and group.
+        let e = &columns[3];
+        assert_eq!(e.rings, 3..5);
+        assert_eq!(plan.rings[3].method, RingMethod::Prisms);
+        assert_eq!(plan.rings[3].outer_m, NEAR_CELLS * 30.0);
+        assert_eq!(plan.rings[4].method, RingMethod::Blocks { ratio: 0.3 });
+        for ring in &plan.rings {
+            let parent = &auto.rings[auto.ring_at(0.5 * (ring.inner_m + ring.outer_m))];
+            assert_eq!((ring.method, ring.group), (parent.method, parent.group));
+        }
+        for w in plan.rings.windows(2) {
             assert_eq!(w[0].outer_m, w[1].inner_m);
         }
+        // Every zone radius inside the outer radius is a hard edge; the inner zone is the
+        // automatic plan's cell square, its column zone A.
+        let mut edges = vec![HAMMER_ZONE_A_RADIUS_M];
+        edges.extend(columns.iter().map(|z| z.outer_m).filter(|&r| r < outer));
+        assert_eq!(plan.hard_edges_m, edges);
+        assert_eq!(plan.inner, auto.inner);
+        assert_eq!(plan.inner_column_radius_m, Some(HAMMER_ZONE_A_RADIUS_M));
+        // Continued beyond M to 166.7 km with zone M's ratio; the far zone (blocks) keeps
+        // its summary group.
+        let long = ZonePlan::hammer(30.0, 166_735.0);
+        let columns = long.zone_columns();
+        assert_eq!(columns[12].name, "beyondM1");
+        let ratio = columns[12].outer_m / columns[12].inner_m;
+        assert!((ratio - 71_996.0 / 48_365.0).abs() < 1e-12);
+        assert_eq!(long.rings.last().unwrap().outer_m, 166_735.0);
+        assert_eq!(long.rings.last().unwrap().group, ZoneGroup::Far);
+        assert!(*long.hard_edges_m.last().unwrap() < 166_735.0);
+        // A plan without per-zone columns has none.
+        assert!(auto.zone_columns().is_empty());
     }
 
     #[test]
@@ -682,7 +832,12 @@ mod tests {
         let plan = ZonePlan::from_toml(good, "p.toml").unwrap();
         assert_eq!(plan.rings.len(), 3);
         assert_eq!(plan.rings[1].method, RingMethod::Blocks { ratio: 0.25 });
+        // Every ring edge inside the plan is a hard edge; the inner zone is whole.
+        assert_eq!(plan.hard_edges_m, [300.0, 10_000.0]);
+        assert_eq!(plan.inner_column_radius_m, None);
+        assert_eq!(plan.fitted_to(5000.0).unwrap().hard_edges_m, [300.0]);
         let err = |text: &str| ZonePlan::from_toml(text, "p.toml").unwrap_err().to_string();
+        assert!(err("[[ring]]\nname = \"a\"\nouter = \"1km\"\nmethod = \"prisms\"\n[[ring]]\nname = \"a\"\nouter = \"5km\"\nmethod = \"blocks\"\n").contains("two rings are named 'a'"));
         assert!(err("[[ring]]\nouter = \"1km\"\nmethod = \"prisms\"\n[[ring]]\nouter = \"500m\"\nmethod = \"blocks\"\n").contains("radii must increase"));
         assert!(err("[[ring]]\nouter = \"1km\"\nmethod = \"prisms\"\n[[ring]]\ninner = \"2km\"\nouter = \"5km\"\nmethod = \"blocks\"\n").contains("gap"));
         assert!(err("[[ring]]\nouter = \"1km\"\nmethod = \"prisms\"\n[[ring]]\ninner = \"500m\"\nouter = \"5km\"\nmethod = \"blocks\"\n").contains("overlap"));
@@ -722,15 +877,27 @@ mod tests {
         }
         assert!(!edges.contains(&31_000.0));
         let names: Vec<&str> = split.rings.iter().map(|r| r.name.as_str()).collect();
-        assert_eq!(
-            &names[..5],
-            ["near_1", "near_2", "near_3", "mid_1", "mid_2"]
-        );
+        assert_eq!(&names[..5], ["near", "near", "near", "mid", "mid"]);
         for piece in &split.rings {
             let parent = &plan.rings[plan.ring_at(0.5 * (piece.inner_m + piece.outer_m))];
+            assert_eq!(piece.name, parent.name);
             assert_eq!(piece.method, parent.method);
             assert_eq!(piece.group, parent.group);
         }
+        // The cuts add no hard edges; a split Hammer plan keeps its own and its zone
+        // columns.
+        assert!(split.hard_edges_m.is_empty());
+        let hammer = ZonePlan::hammer(30.0, 10_000.0);
+        let cut = hammer.split_at(&[100.0, 1000.0, 5000.0]);
+        assert_eq!(cut.rings.len(), hammer.rings.len() + 3);
+        assert_eq!(cut.hard_edges_m, hammer.hard_edges_m);
+        let spans = |p: &ZonePlan| {
+            p.zone_columns()
+                .iter()
+                .map(|z| (z.name.clone(), z.inner_m, z.outer_m))
+                .collect::<Vec<_>>()
+        };
+        assert_eq!(spans(&cut), spans(&hammer));
         let sectors = |p: &ZonePlan| {
             p.rings
                 .iter()
@@ -743,9 +910,14 @@ mod tests {
 
     #[test]
     fn plans_fit_the_outer_radius() {
-        let plan = ZonePlan::hammer(71_996.0 * FOOT_M);
+        let plan = ZonePlan::hammer(30.0, 71_996.0 * FOOT_M);
         let short = plan.clone().fitted_to(10_000.0).unwrap();
         assert_eq!(short.rings.last().unwrap().outer_m, 10_000.0);
+        assert!(*short.hard_edges_m.last().unwrap() < 10_000.0);
+        assert_eq!(
+            short.hard_edges_m,
+            ZonePlan::hammer(30.0, 10_000.0).hard_edges_m
+        );
         let text = "[[ring]]\nouter = \"1km\"\nmethod = \"prisms\"\n";
         let p = ZonePlan::from_toml(text, "p.toml").unwrap();
         assert!(p

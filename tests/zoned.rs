@@ -128,7 +128,7 @@ fn zoned_meets_exact_on_the_real_dem() {
 #[test]
 fn surface_inner_model_meets_the_inclined_plane() {
     // Station on an inclined plane of slope a, the whole disc of radius R integrated:
-    // TC = G rho R int_0^2pi [1 - 1/sqrt(1 + tan^2 a cos^2 phi)] dphi (SCIENCE.md section 7;
+    // TC = G rho R int_0^2pi [1 - 1/sqrt(1 + tan^2 a cos^2 phi)] dphi (our own derivation from the ray integral;
     // R = 1000 m: 0.855411, 3.455011, 7.904672 mGal for 10, 20, 30 degrees). The surface
     // model must meet it to 0.1 %; the flat-topped prisms of the exact sum are off by
     // several per cent on the same DEM.
@@ -148,6 +148,8 @@ fn surface_inner_model_meets_the_inclined_plane() {
             inner: InnerZone::Disc { radius_m: radius },
             rings: vec![],
             per_ring_columns: false,
+            hard_edges_m: vec![],
+            inner_column_radius_m: None,
         };
         let surface = engine(
             &dem,
@@ -190,7 +192,7 @@ fn zones_tile_the_disc_exactly() {
     // A station 40 m above a plain: every element's footprint adds up to the area of the
     // cells whose centres lie inside the outer radius (what the exact method sums), and
     // the correction matches the exact sum, which for this body is the on-axis cylinder
-    // 2 pi G rho [L + a - sqrt(a^2 + L^2)] (SCIENCE.md section 7) up to rasterisation.
+    // 2 pi G rho [L + a - sqrt(a^2 + L^2)] (the on-axis attraction of a cylinder) up to rasterisation.
     let cell = 25.0;
     let radius = 2500.0;
     let dem = Dem::from_fn("plain", 220, 220, -2750.0, 2750.0, cell, |_, _| 500.0);
@@ -252,6 +254,8 @@ fn zones_tile_the_disc_exactly() {
             RingMethod::Sectors { compartments: 12 },
         )],
         per_ring_columns: true,
+        hard_edges_m: vec![],
+        inner_column_radius_m: None,
     };
     let r = engine(
         &dem,
@@ -276,7 +280,7 @@ fn zones_tile_the_disc_exactly() {
 #[test]
 fn spherical_flat_terrain_gives_zero_and_distant_ring_is_lowered() {
     // A plateau at the station's height: both faces lowered by the same drop, so the
-    // correction is exactly 0 in either convention (SCIENCE.md section 6).
+    // correction is exactly 0 in either convention (the drop s^2/2R is the same for both).
     let dem = Dem::from_fn("plateau", 200, 200, -20_000.0, 20_000.0, 200.0, |_, _| {
         1000.0
     });
@@ -304,7 +308,8 @@ fn spherical_flat_terrain_gives_zero_and_distant_ring_is_lowered() {
     }
     // A ring 20-25 km away, 500 m above a station at 1000 m: the curvature-lowered ring is
     // +0.11768 mGal (planar, both faces dropped at the ring's middle) against +0.13991 on a
-    // flat Earth (SCIENCE.md section 6 table; the exact sphere gives +0.11793). On a 250 m
+    // flat Earth (our own computation; an mpmath quadrature over the sphere, not kept in the
+    // repository, gives +0.11793). On a 250 m
     // grid the zoned engine, which drops each element at its own distance, must land
     // between the exact-sphere and ring-middle values within rasterisation error.
     let dem = Dem::from_fn("ring", 220, 220, -27_500.0, 27_500.0, 250.0, |x, y| {

@@ -268,12 +268,19 @@ mod tests {
 
     #[test]
     fn sector_radii_move_to_ring_edges() {
-        let plan = ZonePlan::hammer(21_944.0);
-        let (r, moved) = snap_to_sector_edges(&plan, &[10.0, 16.0, 100.0, 21_944.0]);
-        // Zone B is 2-16.6 m: 10 m moves to 16.64 m, and 16 m to the same edge.
-        assert!((r[0] - 54.6 * 0.3048).abs() < 1e-9, "{r:?}");
+        // A plan file of sector rings (the chart-era way): 2-16.6 m, 16.6-53.3 m.
+        let text = "inner_radius = \"2m\"\n[[ring]]\nname = \"B\"\nouter = 16.6\nmethod = \"sectors\"\n[[ring]]\nname = \"C\"\nouter = 53.3\nmethod = \"sectors\"\n";
+        let plan = ZonePlan::from_toml(text, "chart.toml").unwrap();
+        let (r, moved) = snap_to_sector_edges(&plan, &[10.0, 16.0, 40.0, 53.3]);
+        // 10 m moves to 16.6 m, 16 m to the same edge, 40 m to 53.3 m.
+        assert_eq!(r, [16.6, 53.3]);
         assert_eq!(moved.len(), 3);
-        assert_eq!(r.len(), 3);
-        assert_eq!(*r.last().unwrap(), 21_944.0);
+        // The Hammer plan integrates its zones as prisms and blocks: nothing moves.
+        let hammer = ZonePlan::hammer(30.0, 21_944.0);
+        let radii = [10.0, 16.0, 100.0, 21_944.0];
+        assert_eq!(
+            snap_to_sector_edges(&hammer, &radii),
+            (radii.to_vec(), vec![])
+        );
     }
 }

@@ -8,8 +8,21 @@
 //! start of the sector rings) cuts are reduced to the cells whose centres lie inside,
 //! with the heights of those cells estimated from the block's height trend.
 //!
+//! An element goes to the ring holding its centroid, except at the plan's hard edges
+//! ([`crate::zones::ZonePlan::hard_edges_m`]): a block straddling one is split until its
+//! side is at most [`CUT_BLOCK_MAX_RATIO`] times the edge's radius and it straddles no
+//! other hard edge, then evaluated as two parts, the cells whose centres lie inside the
+//! edge and those outside (and inside the outer radius, when that cuts the block too),
+//! each with its own footprint moments and its heights from the block's height trend,
+//! each part in its own ring. A ring then holds exactly the cells whose centres lie in
+//! it, as in the exact method. (Splitting the blocks that straddle both a hard edge and
+//! the outer radius until they straddle only one was measured on the demo's 30 m DEM at
+//! 10 km, 40 stations: no more accurate, the worst zone 0.0039 mGal off the exact one
+//! either way, and zones K and L, next to the outer radius, took 2311 elements per
+//! station instead of 413.)
+//!
 //! # Block evaluation
-//! The column kernel `f(e, n, h)` (SCIENCE.md section 2, with the curvature drop) summed
+//! The column kernel `f(e, n, h)` (the vertical line mass of a cell, with the curvature drop; see [`crate::kernels::column`]) summed
 //! over a block's cells is expanded to second order about the block's centroid in
 //! (height, easting, northing):
 //!
@@ -97,11 +110,49 @@ fn block_stats(dem: &Dem, pyramid: &Pyramid, level: u32, bcol: usize, brow: usiz
     }
 }
 
+/// Count, centroid and central second moments, in the station's frame, of a set of cell
+/// centres (m, m^2).
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct Footprint {
+    count: f64,
+    e: f64,
+    n: f64,
+    ee: f64,
+    en: f64,
+    nn: f64,
+}
+
+impl Footprint {
+    /// The cells of `self` less those of `part` (a subset): counts subtract, and the raw
+    /// moments (taken about `self`'s centroid) with them. `None` when nothing is left.
+    fn without(&self, part: &Footprint) -> Option<Footprint> {
+        let count = self.count - part.count;
+        if count < 0.5 {
+            return None;
+        }
+        let (de, dn) = (part.e - self.e, part.n - self.n);
+        let e = -part.count * de / count;
+        let n = -part.count * dn / count;
+        let raw = |whole: f64, piece: f64, a: f64, b: f64| {
+            (self.count * whole - part.count * (piece + a * b)) / count
+        };
+        Some(Footprint {
+            count,
+            e: self.e + e,
+            n: self.n + n,
+            ee: (raw(self.ee, part.ee, de, de) - e * e).max(0.0),
+            en: raw(self.en, part.en, de, dn) - e * n,
+            nn: (raw(self.nn, part.nn, dn, dn) - n * n).max(0.0),
+        })
+    }
+}
+
 /// Moments, in the station's frame, of the cell centres of `cols c0..c1, rows r0..r1`
-/// that lie within `radius` of the station: `(count, e, n, C_ee, C_en, C_nn)`. The frame
-/// is linearised about the block's centre (`centre` grid, `local` its local position,
-/// `j` the Jacobian there), exact on a projected grid and close on a geographic one for
-/// the blocks this is used for (small against their distance).
+/// that lie within `radius` of the station (all of them for an infinite radius), rows
+/// taken in at most `max_bands` bands. The frame is linearised about the block's centre
+/// (`centre` grid, `local` its local position, `j` the Jacobian there), exact on a
+/// projected grid and close on a geographic one for the blocks this is used for (small
+/// against their distance).
 #[allow(clippy::too_many_arguments)]
 fn inside_geometry(
     dem: &Dem,
@@ -113,13 +164,15 @@ fn inside_geometry(
     r0: usize,
     r1: usize,
     radius: f64,
-) -> Option<(f64, f64, f64, f64, f64, f64)> {
+    max_bands: usize,
+) -> Option<Footprint> {
     let (mut k, mut se, mut sn, mut see, mut sen, mut snn) =
         (0.0f64, 0.0f64, 0.0f64, 0.0f64, 0.0f64, 0.0f64);
-    // Tall blocks are scanned in at most MAX_BANDS bands of rows, each taken at its middle
-    // row and weighted by its row count: the moments are smooth in the row, and cut
-    // blocks lie at the edge of the zone, where their part is small.
-    let band = (r1 - r0).div_ceil(MAX_BANDS);
+    // Tall blocks are scanned in at most `max_bands` bands of rows, each taken at its
+    // middle row and weighted by its row count: the moments are smooth in the row, and
+    // blocks cut by the outer radius lie at the edge of the zone, where their part is
+    // small.
+    let band = (r1 - r0).div_ceil(max_bands);
     let (de_col, dn_col) = (j[0][0] * dem.dx, j[1][0] * dem.dx);
     let (de_row, dn_row) = (-j[0][1] * dem.dy, -j[1][1] * dem.dy);
     let x_first = dem.col_center_x(c0);
@@ -131,18 +184,24 @@ fn inside_geometry(
         let (dxg, dyg) = (x_first - centre.0, y - centre.1);
         let e0 = local.0 + j[0][0] * dxg + j[0][1] * dyg;
         let n0 = local.1 + j[1][0] * dxg + j[1][1] * dyg;
-        // Columns i >= 0 with |(e0, n0) + i (de, dn)|^2 < radius^2.
-        let qa = de_col * de_col + dn_col * dn_col;
-        let qb = 2.0 * (e0 * de_col + n0 * dn_col);
-        let qc = e0 * e0 + n0 * n0 - radius * radius;
-        let disc = qb * qb - 4.0 * qa * qc;
-        if disc <= 0.0 {
-            continue;
-        }
-        let sq = disc.sqrt();
-        let (t_lo, t_hi) = ((-qb - sq) / (2.0 * qa), (-qb + sq) / (2.0 * qa));
-        let lo = (t_lo.floor() as i64 + 1).max(0);
-        let hi = (t_hi.ceil() as i64 - 1).min((c1 - c0) as i64 - 1);
+        let (lo, hi) = if radius.is_finite() {
+            // Columns i >= 0 with |(e0, n0) + i (de, dn)|^2 < radius^2.
+            let qa = de_col * de_col + dn_col * dn_col;
+            let qb = 2.0 * (e0 * de_col + n0 * dn_col);
+            let qc = e0 * e0 + n0 * n0 - radius * radius;
+            let disc = qb * qb - 4.0 * qa * qc;
+            if disc <= 0.0 {
+                continue;
+            }
+            let sq = disc.sqrt();
+            let (t_lo, t_hi) = ((-qb - sq) / (2.0 * qa), (-qb + sq) / (2.0 * qa));
+            (
+                (t_lo.floor() as i64 + 1).max(0),
+                (t_hi.ceil() as i64 - 1).min((c1 - c0) as i64 - 1),
+            )
+        } else {
+            (0, (c1 - c0) as i64 - 1)
+        };
         if hi < lo {
             continue;
         }
@@ -163,16 +222,56 @@ fn inside_geometry(
         return None;
     }
     let (e, n) = (se / k, sn / k);
-    Some((k, e, n, see / k - e * e, sen / k - e * n, snn / k - n * n))
+    Some(Footprint {
+        count: k,
+        e,
+        n,
+        ee: see / k - e * e,
+        en: sen / k - e * n,
+        nn: snn / k - n * n,
+    })
+}
+
+/// The moments of a part of a block (footprint `part`, its cells at the block's mean
+/// weight per cell `mean_weight`), heights from the block's height trend: the trend
+/// `beta` solves `C_xy beta = C_hxy` over the whole block, the part's mean height is the
+/// trend's value at its centroid and its height-position covariances the trend's over
+/// its footprint; the height spread and third moments are the block's.
+fn part_moments(block: &Moments, part: &Footprint, mean_weight: f64) -> Moments {
+    let m = block;
+    let det = m.ee * m.nn - m.en * m.en;
+    let (be, bn) = if det > 1e-9 * (m.ee * m.nn).max(1e-30) {
+        (
+            (m.he * m.nn - m.hn * m.en) / det,
+            (m.hn * m.ee - m.he * m.en) / det,
+        )
+    } else {
+        (0.0, 0.0)
+    };
+    Moments {
+        n: part.count * mean_weight,
+        e: part.e,
+        nn_: part.n,
+        h: m.h + be * (part.e - m.e) + bn * (part.n - m.nn_),
+        hh: m.hh,
+        he: be * part.ee + bn * part.en,
+        hn: be * part.en + bn * part.nn,
+        ee: part.ee,
+        en: part.en,
+        nn: part.nn,
+        hhe: m.hhe,
+        hhn: m.hhn,
+    }
 }
 
 /// Blocks whose third- and fourth-order height terms exceed this fraction of their value
 /// are split (measured on a ring of sharp-edged relief; see the README).
 pub const HIGH_ORDER_MAX_FRACTION: f64 = 0.05;
 
-/// Blocks cut by the edge of the zone are split until their side is at most this
-/// fraction of the edge's radius: their inside part is estimated from the block's height
-/// trend, which a large block crossing a ridge or a valley at the edge gets wrong.
+/// Blocks cut by the edge of the zone, or straddling a hard edge, are split until their
+/// side is at most this fraction of the edge's radius: their parts are estimated from
+/// the block's height trend, which a large block crossing a ridge or a valley at the
+/// edge gets wrong.
 pub const CUT_BLOCK_MAX_RATIO: f64 = 0.1;
 
 /// Most row bands scanned when a block cut by the zone's edge is reduced to its inside cells
@@ -189,7 +288,8 @@ pub enum Exclusion {
 }
 
 /// Walks the quadtree over the prism and block rings, out to `outer_m`, adding each
-/// element to the ring holding its centroid.
+/// element to the ring holding its centroid (exactly by cell centre at the plan's hard
+/// edges), or to the inner column within `column_m` of the station.
 #[allow(clippy::too_many_arguments)]
 pub fn walk<F: Frame>(
     dem: &Dem,
@@ -200,6 +300,7 @@ pub fn walk<F: Frame>(
     curvature: f64,
     outer_m: f64,
     inner: Option<Exclusion>,
+    column_m: Option<f64>,
     parts: &mut Parts,
 ) {
     let mut top = 0;
@@ -212,10 +313,24 @@ pub fn walk<F: Frame>(
         .iter()
         .position(|r| matches!(r.method, RingMethod::Sectors { .. }))
         .unwrap_or(plan.rings.len());
-    if quad_rings == 0 {
+    if quad_rings == 0 && column_m.is_none() {
         return;
     }
-    let ring_of = |d: f64| plan.ring_at(d).min(quad_rings - 1);
+    let ring_of = |d: f64| plan.ring_at(d).min(quad_rings.max(1) - 1);
+    // Adds an element whose centroid lies `d` from the station.
+    let add = |parts: &mut Parts, d: f64, kernel: f64, area: f64| {
+        if quad_rings == 0 || column_m.is_some_and(|c| d < c) {
+            parts.add_inner(kernel, area);
+        } else {
+            parts.add(ring_of(d), kernel, area);
+        }
+    };
+    let hard_edges: Vec<f64> = plan
+        .hard_edges_m
+        .iter()
+        .copied()
+        .filter(|&r| r < outer_m)
+        .collect();
     let outer2 = outer_m * outer_m;
     let mut stack: Vec<(u32, usize, usize)> = Vec::with_capacity(64);
     stack.push((top, 0, 0));
@@ -271,7 +386,7 @@ pub fn walk<F: Frame>(
                 -d,
                 h - p.elev - d,
             );
-            parts.add(ring_of(s2.sqrt()), w * k, w * cw * ch);
+            add(parts, s2.sqrt(), w * k, w * cw * ch);
             continue;
         }
         let split = |stack: &mut Vec<(u32, usize, usize)>| {
@@ -289,12 +404,12 @@ pub fn walk<F: Frame>(
         let (cw, ch) = frame.cell_size(gx, gy, dem.dx, dem.dy);
         let (e_c, n_c) = rect.centre();
         let ring = ring_of(dmin2.sqrt());
-        let accept = match plan.rings[ring].method {
-            RingMethod::Blocks { ratio } => {
-                (size as f64) * cw.max(ch) <= ratio * (e_c * e_c + n_c * n_c).sqrt()
-            }
-            _ => false,
-        };
+        let side = (size as f64) * cw.max(ch);
+        let accept = quad_rings > 0
+            && match plan.rings[ring].method {
+                RingMethod::Blocks { ratio } => side <= ratio * (e_c * e_c + n_c * n_c).sqrt(),
+                _ => false,
+            };
         if !accept {
             split(&mut stack);
             continue;
@@ -310,9 +425,25 @@ pub fn walk<F: Frame>(
             continue;
         }
         let cut = rect.far_centre2(0.0, 0.0) >= outer2;
-        if cut && (size as f64) * cw.max(ch) > CUT_BLOCK_MAX_RATIO * outer_m {
+        if cut && side > CUT_BLOCK_MAX_RATIO * outer_m {
             split(&mut stack);
             continue;
+        }
+        // The hard edges the block's cell centres may lie on both sides of.
+        let (near_centre, far_centre) = (
+            rect.near_centre2(0.5 * cw, 0.5 * ch).sqrt(),
+            rect.far_centre2(0.5 * cw, 0.5 * ch).sqrt(),
+        );
+        let mut straddled = hard_edges
+            .iter()
+            .copied()
+            .filter(|&r| near_centre < r && far_centre >= r);
+        let edge = straddled.next();
+        if let Some(r) = edge {
+            if straddled.next().is_some() || side > CUT_BLOCK_MAX_RATIO * r {
+                split(&mut stack);
+                continue;
+            }
         }
         // Centroid and moments in the station's frame: m = J (grid moments) J^T.
         let (cx, cy) = (gx + stats.ex as f64, gy + stats.ny as f64);
@@ -347,50 +478,30 @@ pub fn walk<F: Frame>(
             hhe,
             hhn,
         };
-        if cut {
-            let centre_local = if plane {
+        let centre_local = || {
+            if plane {
                 (gx - p.x, gy - p.y)
             } else {
                 frame.local(gx, gy)
-            };
-            let Some((k, e, n, ee, en, nn)) = inside_geometry(
+            }
+        };
+        let mean_weight = m.n / ((c1 - c0) * (r1 - r0)) as f64;
+        if cut && edge.is_none() {
+            let Some(inside) = inside_geometry(
                 dem,
                 (gx, gy),
-                centre_local,
+                centre_local(),
                 frame.jacobian(gx, gy),
                 c0,
                 c1,
                 r0,
                 r1,
                 outer_m,
+                MAX_BANDS,
             ) else {
                 continue;
             };
-            // Height trend of the block: beta solves C_xy beta = C_hxy.
-            let det = m.ee * m.nn - m.en * m.en;
-            let (be, bn) = if det > 1e-9 * (m.ee * m.nn).max(1e-30) {
-                (
-                    (m.he * m.nn - m.hn * m.en) / det,
-                    (m.hn * m.ee - m.he * m.en) / det,
-                )
-            } else {
-                (0.0, 0.0)
-            };
-            let mean_weight = m.n / ((c1 - c0) * (r1 - r0)) as f64;
-            m = Moments {
-                n: k * mean_weight,
-                e,
-                nn_: n,
-                h: m.h + be * (e - m.e) + bn * (n - m.nn_),
-                hh: m.hh,
-                he: be * ee + bn * en,
-                hn: be * en + bn * nn,
-                ee,
-                en,
-                nn,
-                hhe: m.hhe,
-                hhn: m.hhn,
-            };
+            m = part_moments(&m, &inside, mean_weight);
         }
         let r = (m.e * m.e + m.nn_ * m.nn_).sqrt();
         let (vx, vy) = (cw * cw / 12.0, ch * ch / 12.0);
@@ -402,6 +513,59 @@ pub fn walk<F: Frame>(
             split(&mut stack);
             continue;
         }
-        parts.add(ring_of(r), m.n * unit_area * per_cell, m.n * unit_area);
+        let Some(edge) = edge else {
+            add(parts, r, m.n * unit_area * per_cell, m.n * unit_area);
+            continue;
+        };
+        // A block on a hard edge: its cells inside the edge and those outside (within the
+        // outer radius, when that cuts the block too), each part in its own ring (every
+        // row scanned: the attribution is to be exact).
+        let (local, j) = (centre_local(), frame.jacobian(gx, gy));
+        let (whole, whole_moments) = if cut {
+            let Some(within) =
+                inside_geometry(dem, (gx, gy), local, j, c0, c1, r0, r1, outer_m, usize::MAX)
+            else {
+                continue;
+            };
+            (within, part_moments(&m, &within, mean_weight))
+        } else {
+            let all = inside_geometry(dem, (gx, gy), local, j, c0, c1, r0, r1, f64::INFINITY, 1)
+                .expect("a block has cells");
+            (all, m)
+        };
+        let inside = inside_geometry(dem, (gx, gy), local, j, c0, c1, r0, r1, edge, usize::MAX);
+        // Just inside the edge, for the ring lookup (the edge is the next ring's start).
+        let below_edge = edge * (1.0 - 1e-12);
+        let centroid = |q: &Moments| (q.e * q.e + q.nn_ * q.nn_).sqrt();
+        let pieces = match inside {
+            None => [
+                Some((whole_moments, centroid(&whole_moments).max(edge))),
+                None,
+            ],
+            Some(inside) => match whole.without(&inside) {
+                None => [
+                    Some((whole_moments, centroid(&whole_moments).min(below_edge))),
+                    None,
+                ],
+                Some(outside) => {
+                    let inner_part = part_moments(&m, &inside, mean_weight);
+                    let outer_part = part_moments(&m, &outside, mean_weight);
+                    [
+                        Some((inner_part, centroid(&inner_part).min(below_edge))),
+                        Some((outer_part, centroid(&outer_part).max(edge))),
+                    ]
+                }
+            },
+        };
+        for (piece, d) in pieces.into_iter().flatten() {
+            let (f, height_terms, spatial_terms, _) = taylor_terms(&piece, vx, vy, curvature);
+            let per_cell = f + height_terms + spatial_terms;
+            add(
+                parts,
+                d,
+                piece.n * unit_area * per_cell,
+                piece.n * unit_area,
+            );
+        }
     }
 }

@@ -1,9 +1,12 @@
 //! The exact method: every cell whose centre lies within the outer radius is a prism over
 //! its footprint between the station's level and the cell's height, both lowered by the
-//! curvature drop at the cell centre's distance in the spherical convention (SCIENCE.md
-//! section 6). Each cell's part goes to the plan ring holding its centre; the inner
+//! curvature drop at the cell centre's distance in the spherical convention (the drop s^2/2R,
+//! [`crate::units::EARTH_RADIUS_M`]). Each cell's part goes to the plan ring holding its centre; the inner
 //! zone's cells (the cell square around the station) form the inner part, as prisms or,
-//! with the surface inner model, as the continuous surface of [`super::inner`].
+//! with the surface inner model, as the continuous surface of [`super::inner`]. With an
+//! inner column radius (the Hammer plan's zone A) the square is shared out as the zoned
+//! method shares it (the same code): prisms by their centres, the surface by radius, and
+//! any other cell whose centre lies within the radius is in the inner column too.
 //!
 //! In the planar convention the prism corner terms at the station's own level (`u = 0`)
 //! are shared by the cells of a row: each node's term is computed once per row instead
@@ -23,6 +26,7 @@ pub fn exact_parts<F: Frame>(
     parts: &mut Parts,
     skip_inner: bool,
     inner_zone: InnerZone,
+    column: Option<f64>,
 ) {
     let dem = engine.dem;
     let config = &engine.config;
@@ -30,8 +34,8 @@ pub fn exact_parts<F: Frame>(
     let r2max = radius * radius;
     let curvature = config.convention.curvature();
     // A disc inner zone (a field inner-zone value) takes the cells whose centres lie in
-    // it; otherwise the inner zone is the cell box (also for the Hammer preset's zone A,
-    // which the exact method, cell by cell, cannot resolve).
+    // it; otherwise the inner zone is the cell box (also for a plan file's disc, which
+    // the exact method, cell by cell, cannot resolve).
     let (half_width, disc) = match inner_zone {
         InnerZone::Cells { half_width } => (half_width, None),
         InnerZone::Disc { radius_m } if engine.plan.inner != inner_zone => (0, Some(radius_m)),
@@ -56,15 +60,9 @@ pub fn exact_parts<F: Frame>(
             parts.area_m2 += std::f64::consts::PI * r * r;
         }
     } else if surface {
-        parts.inner += inner::surface_square(
-            dem,
-            frame,
-            p,
-            &inner_box,
-            curvature,
-            &mut parts.inner_elements,
-        );
+        engine.surface_box(frame, p, &inner_box, column, parts);
     }
+    let column2 = column.map(|c| c * c);
     let ring_outer2: Vec<f64> = engine
         .plan
         .rings
@@ -143,13 +141,25 @@ pub fn exact_parts<F: Frame>(
                 Some(rd) => s2 < rd * rd && !skip_inner,
                 None => inner_box.contains(c as i64, r),
             };
-            if in_inner && surface {
+            // The inner column: within the column radius, or (without one) the inner zone.
+            let in_column = match column2 {
+                Some(c2) => s2 < c2,
+                None => in_inner,
+            };
+            let add_area = |parts: &mut Parts| {
                 parts.area_m2 += cell_area * w;
+                if !in_column {
+                    parts.ring_area_m2[ring_of(s2)] += cell_area * w;
+                }
+            };
+            if in_inner && surface {
+                // (Its area, by its centre; its kernel is in the surface's parts.)
+                add_area(parts);
                 continue;
             }
             let dh = h - p.elev;
             if dh == 0.0 {
-                parts.area_m2 += cell_area * w;
+                add_area(parts);
                 continue;
             }
             let drop = 0.5 * curvature * s2;
@@ -167,10 +177,8 @@ pub fn exact_parts<F: Frame>(
             } else {
                 prism_kernel(e1, e2, m1, m2, u_ref, u_top)
             };
-            if in_inner {
-                parts.inner += w * k;
-                parts.inner_elements += 1;
-                parts.area_m2 += cell_area * w;
+            if in_column {
+                parts.add_inner(w * k, cell_area * w);
             } else {
                 parts.add(ring_of(s2), w * k, cell_area * w);
             }
@@ -277,7 +285,7 @@ mod tests {
     #[test]
     fn slab_under_a_station_in_a_pit() {
         // A station 1 m above a wide plain: the missing 1 m slab gives 2 pi G rho h
-        // (0.1119688 mGal at 2670 kg/m3; SCIENCE.md section 1) up to the cylinder's h/a.
+        // (0.1119688 mGal at 2670 kg/m3 with the CODATA 2018 G) up to the cylinder's h/a.
         let dem = Dem::from_fn("plain", 400, 400, -20_000.0, 20_000.0, 100.0, |_, _| 0.0);
         let p = Point {
             x: 50.0,

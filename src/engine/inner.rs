@@ -2,7 +2,7 @@
 //!
 //! Flat-topped cells put a step of (cell height - station height) right under the
 //! station; on steep ground with the station off a DEM node that alone is worth up to
-//! about 1 mGal of spurious correction (SCIENCE.md section 7, cone test). The surface
+//! about 1 mGal of spurious correction (the cone test below). The surface
 //! inner model replaces them with a continuous surface through the station:
 //!
 //! ```text
@@ -12,7 +12,7 @@
 //! where `B` is the bilinear DEM surface through the cell centres, `h_s` the station
 //! height and `rho_max(theta)` the distance to the zone's edge along azimuth `theta`: the
 //! shift is tapered to zero at the edge, where the surface meets the DEM. The surface is
-//! integrated by polar quadrature of the column kernel (SCIENCE.md section 2):
+//! integrated by polar quadrature of the column kernel (the vertical line mass, [`crate::kernels::column`]):
 //!
 //! ```text
 //! k = int_0^{2 pi} dtheta int_0^{rho_max(theta)} rho c(rho, -d(rho), z - d(rho)) drho,
@@ -26,6 +26,18 @@
 //! Gauss-Legendre quadrature; next to the station, where the integrand changes over a
 //! length of the order of the station's offset from the DEM, the first segment is graded
 //! geometrically.
+//!
+//! The rays also break at the plan's hard edges (and the inner column's radius), and the
+//! angular panels at the directions where those circles cross the square's sides, so
+//! that when the inner zone is shared out among the plan's zones (the Hammer plan's inner
+//! column is zone A, 2 m, of a cell square tens of metres wide) each piece of a ray goes
+//! whole to the zone holding its midpoint ([`surface_square_parts`]): no Gauss segment
+//! straddles a zone edge, and the pieces add up to the whole. For zone `k` between radii
+//! `a_k` and `b_k` the piece is
+//!
+//! ```text
+//! k_k = int_0^{2 pi} dtheta int_{min(a_k, rho_max)}^{min(b_k, rho_max)} rho c(rho, -d, z - d) drho.
+//! ```
 
 use super::frame::Frame;
 use super::{CellBox, Point};
@@ -72,9 +84,17 @@ fn station_weight(dem: &Dem, p: Point) -> f64 {
     dem.weight(col as usize, row as usize)
 }
 
-/// Area of the inner box's cells with data whose centres lie within the outer radius, m^2.
-pub fn box_area<F: Frame>(dem: &Dem, frame: &F, p: Point, cells: &CellBox, outer_m: f64) -> f64 {
-    let mut area = 0.0;
+/// Calls `each(distance, area)` (m, m^2) for every cell of the inner box with data whose
+/// centre lies within the outer radius: the distance of its centre from the station and
+/// its area times its weight.
+pub fn box_cell_areas<F: Frame>(
+    dem: &Dem,
+    frame: &F,
+    p: Point,
+    cells: &CellBox,
+    outer_m: f64,
+    each: &mut dyn FnMut(f64, f64),
+) {
     for row in cells.row_lo.max(0)..=cells.row_hi.min(dem.rows as i64 - 1) {
         for col in cells.col_lo.max(0)..=cells.col_hi.min(dem.cols as i64 - 1) {
             let (c, r) = (col as usize, row as usize);
@@ -82,25 +102,27 @@ pub fn box_area<F: Frame>(dem: &Dem, frame: &F, p: Point, cells: &CellBox, outer
             let (e, n) = frame.local(x, y);
             if dem.height(c, r).is_some() && e * e + n * n < outer_m * outer_m {
                 let (cw, ch) = frame.cell_size(x, y, dem.dx, dem.dy);
-                area += cw * ch * dem.weight(c, r);
+                each((e * e + n * n).sqrt(), cw * ch * dem.weight(c, r));
             }
         }
     }
     let _ = p;
-    area
 }
 
-/// Flat-topped prisms for the cells of the inner box (the `prisms` inner model).
-pub fn prisms_in_box<F: Frame>(
+/// Flat-topped prisms for the cells of the inner box (the `prisms` inner model), each
+/// added to `out` at the slot of its centre's distance from the station (`slot_of`).
+#[allow(clippy::too_many_arguments)]
+pub fn prisms_in_box_parts<F: Frame>(
     dem: &Dem,
     frame: &F,
     p: Point,
     cells: &CellBox,
     curvature: f64,
     outer_m: f64,
+    slot_of: &dyn Fn(f64) -> usize,
+    out: &mut [f64],
     elements: &mut u64,
-) -> f64 {
-    let mut total = 0.0;
+) {
     for row in cells.row_lo.max(0)..=cells.row_hi.min(dem.rows as i64 - 1) {
         for col in cells.col_lo.max(0)..=cells.col_hi.min(dem.cols as i64 - 1) {
             let (c, r) = (col as usize, row as usize);
@@ -113,7 +135,7 @@ pub fn prisms_in_box<F: Frame>(
             }
             let (cw, ch) = frame.cell_size(x, y, dem.dx, dem.dy);
             let d = 0.5 * curvature * s2;
-            total += dem.weight(c, r)
+            out[slot_of(s2.sqrt())] += dem.weight(c, r)
                 * prism_kernel(
                     e_c - 0.5 * cw,
                     e_c + 0.5 * cw,
@@ -125,7 +147,6 @@ pub fn prisms_in_box<F: Frame>(
             *elements += 1;
         }
     }
-    total
 }
 
 /// Flat-topped prisms for the cells whose centres lie within `radius_m` of the station
@@ -317,8 +338,18 @@ impl Region<'_> {
         rho * column_kernel(rho, -drop, z - drop)
     }
 
-    /// Integral along one ray from 0 to `rho_max`.
-    fn ray(&self, ce: f64, cn: f64, rho_max: f64, evaluations: &mut u64) -> f64 {
+    /// Integral along one ray from 0 to `rho_max`, each segment added to `out` at the
+    /// slot of its midpoint radius (`split.slot_of`); the ray also breaks at
+    /// `split.breaks`.
+    fn ray(
+        &self,
+        ce: f64,
+        cn: f64,
+        rho_max: f64,
+        split: &Split,
+        out: &mut [f64],
+        evaluations: &mut u64,
+    ) {
         let mut breaks = [0.0f64; MAX_BREAKS];
         let mut count = 0;
         let mut push = |t: f64| {
@@ -334,6 +365,7 @@ impl Region<'_> {
         if cn.abs() > 1e-15 {
             self.lines_n.iter().for_each(|&n| push(n / cn));
         }
+        split.breaks.iter().for_each(|&r| push(r));
         // Grade the start: the integrand varies over a length of the order of the shift.
         if self.shift.abs() > 1e-9 * rho_max {
             let mut g = 0.5 * self.shift.abs();
@@ -344,12 +376,18 @@ impl Region<'_> {
         }
         let breaks = &mut breaks[..count];
         breaks.sort_unstable_by(f64::total_cmp);
-        let mut sum = 0.0;
+        // The running sum of the current slot, added to `out` when the slot changes.
+        let (mut slot, mut sum) = (0, 0.0);
         let mut a = 0.0;
         for &b in breaks.iter().skip(1).chain(std::iter::once(&rho_max)) {
             if b - a > 1e-12 * rho_max {
                 let half = 0.5 * (b - a);
                 let mid = 0.5 * (a + b);
+                let here = (split.slot_of)(mid);
+                if here != slot {
+                    out[slot] += sum;
+                    (slot, sum) = (here, 0.0);
+                }
                 // Away from the station, where the integrand is smooth on each segment, four
                 // points do; next to it, inside the graded layer, six.
                 let rule: &[(f64, f64)] = if a >= 4.0 * self.shift.abs() {
@@ -364,16 +402,19 @@ impl Region<'_> {
                 a = b;
             }
         }
-        sum
+        out[slot] += sum;
     }
 
-    /// Integral over all azimuths, panels split at `critical` angles.
+    /// Integral over all azimuths, panels split at `critical` angles, added to `out` by
+    /// the slots of `split`.
     fn integrate(
         &self,
         rho_max: &dyn Fn(f64, f64) -> f64,
         mut critical: Vec<f64>,
+        split: &Split,
+        out: &mut [f64],
         evaluations: &mut u64,
-    ) -> f64 {
+    ) {
         critical
             .iter_mut()
             .for_each(|a| *a = a.rem_euclid(2.0 * PI));
@@ -384,7 +425,7 @@ impl Region<'_> {
         critical.sort_by(f64::total_cmp);
         critical.dedup_by(|a, b| (*a - *b).abs() < 1e-12);
         critical.push(critical[0] + 2.0 * PI);
-        let mut total = 0.0;
+        let mut ray_parts = vec![0.0; out.len()];
         for w in critical.windows(2) {
             let (a, b) = (w[0], w[1]);
             let half = 0.5 * (b - a);
@@ -392,11 +433,61 @@ impl Region<'_> {
             for &(x, wt) in &ANGULAR {
                 let theta = mid + half * x;
                 let (cn, ce) = theta.sin_cos();
-                total += wt * half * self.ray(ce, cn, rho_max(ce, cn), evaluations);
+                ray_parts.iter_mut().for_each(|v| *v = 0.0);
+                self.ray(ce, cn, rho_max(ce, cn), split, &mut ray_parts, evaluations);
+                for (total, part) in out.iter_mut().zip(&ray_parts) {
+                    *total += wt * half * part;
+                }
             }
         }
-        total
     }
+}
+
+/// How the inner zone's quadrature is shared out: the radii where rays break, and the
+/// slot (an index into the caller's sums) of a piece by its midpoint radius.
+pub struct Split<'a> {
+    /// Radii (m) where every ray breaks.
+    pub breaks: &'a [f64],
+    /// Slot of a piece of ray whose midpoint lies at this radius (m).
+    pub slot_of: &'a dyn Fn(f64) -> usize,
+}
+
+impl Split<'_> {
+    /// Everything in slot 0, no extra breaks.
+    pub const WHOLE: Split<'static> = Split {
+        breaks: &[],
+        slot_of: &|_| 0,
+    };
+}
+
+/// Directions (radians) where the circles of radius `radii` around the station cross
+/// the sides of the box `[e_min, e_max] x [n_min, n_max]` (local metres, the station
+/// inside).
+fn circle_crossings(radii: &[f64], e_min: f64, e_max: f64, n_min: f64, n_max: f64) -> Vec<f64> {
+    let mut out = Vec::new();
+    for &r in radii {
+        for side_e in [e_min, e_max] {
+            if r > side_e.abs() {
+                let n = (r * r - side_e * side_e).sqrt();
+                for n in [n, -n] {
+                    if n > n_min && n < n_max {
+                        out.push(n.atan2(side_e));
+                    }
+                }
+            }
+        }
+        for side_n in [n_min, n_max] {
+            if r > side_n.abs() {
+                let e = (r * r - side_n * side_n).sqrt();
+                for e in [e, -e] {
+                    if e > e_min && e < e_max {
+                        out.push(side_n.atan2(e));
+                    }
+                }
+            }
+        }
+    }
+    out
 }
 
 /// Kink lines of the bilinear surface (the grid lines through cell centres) within
@@ -455,8 +546,37 @@ pub fn surface_square<F: Frame>(
     curvature: f64,
     evaluations: &mut u64,
 ) -> f64 {
+    let mut total = [0.0];
+    surface_square_parts(
+        dem,
+        frame,
+        p,
+        cells,
+        curvature,
+        &Split::WHOLE,
+        &mut total,
+        evaluations,
+    );
+    total[0]
+}
+
+/// The surface inner model over the cell box around the station, shared out by `split`:
+/// each piece of a ray (broken at `split.breaks`, and the angular panels at the
+/// directions where those circles cross the box's sides) is added to `out` at the slot
+/// of its midpoint radius.
+#[allow(clippy::too_many_arguments)]
+pub fn surface_square_parts<F: Frame>(
+    dem: &Dem,
+    frame: &F,
+    p: Point,
+    cells: &CellBox,
+    curvature: f64,
+    split: &Split,
+    out: &mut [f64],
+    evaluations: &mut u64,
+) {
     let Some(b0) = dem.bilinear(p.x, p.y) else {
-        return 0.0;
+        return;
     };
     let lin = LinearFrame::at(frame, p);
     let (x_lo, x_hi) = (
@@ -482,6 +602,7 @@ pub fn surface_square<F: Frame>(
     ] {
         critical.push(n.atan2(e));
     }
+    critical.extend(circle_crossings(split.breaks, e_min, e_max, n_min, n_max));
     let region = Region {
         dem,
         frame: lin,
@@ -509,7 +630,12 @@ pub fn surface_square<F: Frame>(
         };
         te.min(tn)
     };
-    region.integrate(&rho_max, critical, evaluations) * station_weight(dem, p)
+    let mut parts = vec![0.0; out.len()];
+    region.integrate(&rho_max, critical, split, &mut parts, evaluations);
+    let weight = station_weight(dem, p);
+    for (total, part) in out.iter_mut().zip(parts) {
+        *total += part * weight;
+    }
 }
 
 /// The surface inner model over a disc of radius `radius_m` around the station.
@@ -542,7 +668,15 @@ pub fn surface_disc<F: Frame>(
         lines_e,
         lines_n,
     };
-    region.integrate(&|_, _| radius_m, critical, evaluations) * station_weight(dem, p)
+    let mut total = [0.0];
+    region.integrate(
+        &|_, _| radius_m,
+        critical,
+        &Split::WHOLE,
+        &mut total,
+        evaluations,
+    );
+    total[0] * station_weight(dem, p)
 }
 
 #[cfg(test)]
@@ -552,7 +686,8 @@ mod tests {
 
     /// Exact kernel of an inclined plane through the station over a star-shaped region:
     /// on azimuth phi the profile is a straight line of slope tan(a) cos(phi - phi0), so
-    /// the ray integral is rho_max (1 - 1/sqrt(1 + t^2)) (SCIENCE.md section 7).
+    /// the ray integral is rho_max (1 - 1/sqrt(1 + t^2)) (the vertical integral of the column kernel along the
+    /// ray, derived here).
     fn plane_region_kernel(slope: f64, azimuth: f64, rho_max: &dyn Fn(f64) -> f64) -> f64 {
         let n = 200_000;
         let mut sum = 0.0;
@@ -596,17 +731,67 @@ mod tests {
         let exact = plane_region_kernel(tan_a, az, &rho_max);
         assert!(((k - exact) / exact).abs() < 1e-6, "{k} vs {exact}");
         // The disc form against the closed form G rho R [2 pi - 4 cos a K(sin^2 a)]
-        // (SCIENCE.md section 7), here as the direct integral.
+        // (our own derivation), here as the direct integral.
         let k = surface_disc(&dem, &frame, p, 25.0, 0.0, &mut evals);
         let exact = plane_region_kernel(tan_a, az, &|_| 25.0);
         assert!(((k - exact) / exact).abs() < 1e-6, "{k} vs {exact}");
     }
 
     #[test]
+    fn surface_pieces_meet_the_inclined_plane_annulus_by_annulus() {
+        // The plane of the test above, the square shared out at 2, 16.6 and 45 m (which crosses its sides): on azimuth
+        // phi the ray integral from a to b is (b - a) (1 - 1/sqrt(1 + t^2)), so each
+        // annulus of the square has the closed form of its chords.
+        let (tan_a, az) = (30f64.to_radians().tan(), 20f64.to_radians());
+        let (ge, gn) = (tan_a * az.cos(), tan_a * az.sin());
+        let dem = Dem::from_fn("plane", 40, 40, 0.0, 1200.0, 30.0, |x, y| {
+            ge * (x - 600.0) + gn * (y - 600.0)
+        });
+        let p = Point {
+            x: 611.3,
+            y: 587.9,
+            elev: ge * 11.3 + gn * -12.1,
+        };
+        let cells = CellBox::around(&dem, p.x, p.y, 1);
+        let frame = ProjectedFrame { x0: p.x, y0: p.y };
+        let edges = [2.0, 16.6, 45.0];
+        let slot_of = |rho: f64| edges.partition_point(|&e| e <= rho);
+        let split = Split {
+            breaks: &edges,
+            slot_of: &slot_of,
+        };
+        let mut parts = [0.0; 4];
+        let mut evals = 0;
+        surface_square_parts(&dem, &frame, p, &cells, 0.0, &split, &mut parts, &mut evals);
+        let e_min = dem.x_left + cells.col_lo as f64 * dem.dx - p.x;
+        let e_max = dem.x_left + (cells.col_hi + 1) as f64 * dem.dx - p.x;
+        let n_max = dem.y_top - cells.row_lo as f64 * dem.dy - p.y;
+        let n_min = dem.y_top - (cells.row_hi + 1) as f64 * dem.dy - p.y;
+        let rho_max = |t: f64| {
+            let (s, c) = t.sin_cos();
+            let te = if c > 0.0 { e_max / c } else { e_min / c };
+            let tn = if s > 0.0 { n_max / s } else { n_min / s };
+            te.min(tn)
+        };
+        let radii = [0.0, 2.0, 16.6, 45.0, f64::INFINITY];
+        for (k, part) in parts.iter().enumerate() {
+            let chord = |t: f64| rho_max(t).min(radii[k + 1]) - rho_max(t).min(radii[k]);
+            let exact = plane_region_kernel(tan_a, az, &chord);
+            assert!(
+                ((part - exact) / exact).abs() < 1e-6,
+                "annulus {k}: {part} vs {exact}"
+            );
+        }
+        let whole = surface_square(&dem, &frame, p, &cells, 0.0, &mut evals);
+        let sum: f64 = parts.iter().sum();
+        assert!(((sum - whole) / whole).abs() < 1e-6, "{sum} vs {whole}");
+    }
+
+    #[test]
     fn station_above_a_flat_surface_sees_the_missing_disc() {
         // Station 2 m above a flat DEM: the tapered surface is a cone from the station down
         // to the DEM at the edge of a disc of radius R. For a cone of slope t = 2/R the
-        // exact kernel is 2 pi R (1 - 1/sqrt(1 + t^2)) (SCIENCE.md section 7, cone).
+        // exact kernel is 2 pi R (1 - 1/sqrt(1 + t^2)) (derived from the ray integral above).
         let dem = Dem::from_fn("flat", 20, 20, 0.0, 200.0, 10.0, |_, _| 100.0);
         let p = Point {
             x: 101.0,

@@ -12,6 +12,12 @@
 //!   reference for tests and benchmarks.
 //! - [`Method::Zoned`]: the plan's inner zone, prism and block rings (a quadtree over the
 //!   block pyramid, [`blocks`]) and sector rings ([`sectors`]).
+//!
+//! With a plan's inner column radius ([`ZonePlan::inner_column_radius_m`]) both methods
+//! share the inner cell square out alike: what lies within the radius (each cell by its
+//! centre, or the surface quadrature by radius) is the inner column, the rest goes to
+//! the rings at its radii; any cell outside the square whose centre lies within the
+//! radius (cells smaller than the radius) is in the inner column too.
 
 pub mod blocks;
 pub mod exact;
@@ -423,9 +429,16 @@ impl<'a> Engine<'a> {
         let radius = self.config.outer_radius_m;
         let coverage = coverage_in(self.dem, &self.pyramid, frame, p.x, radius);
         let mut parts = Parts::new(self.plan.rings.len());
+        // A disc inner zone (a field value's) is always the whole inner column.
+        let column = match inner_zone {
+            InnerZone::Cells { .. } => self.plan.inner_column_radius_m,
+            InnerZone::Disc { .. } => None,
+        };
         match self.config.method {
-            Method::Exact => exact::exact_parts(self, frame, p, &mut parts, skip_inner, inner_zone),
-            Method::Zoned => self.zoned_parts(frame, p, &mut parts, skip_inner, inner_zone),
+            Method::Exact => {
+                exact::exact_parts(self, frame, p, &mut parts, skip_inner, inner_zone, column)
+            }
+            Method::Zoned => self.zoned_parts(frame, p, &mut parts, skip_inner, inner_zone, column),
         }
         StationResult {
             dem_elev_m: self.dem.bilinear(p.x, p.y),
@@ -439,6 +452,100 @@ impl<'a> Engine<'a> {
         }
     }
 
+    /// Radii where the inner square's surface quadrature breaks its rays: the plan's
+    /// hard edges and the inner column's radius.
+    fn inner_breaks(&self, column: Option<f64>) -> Vec<f64> {
+        let mut breaks = self.plan.hard_edges_m.clone();
+        if let Some(c) = column {
+            if !breaks.contains(&c) {
+                breaks.push(c);
+                breaks.sort_by(f64::total_cmp);
+            }
+        }
+        breaks
+    }
+
+    /// Slot of a part of the inner square at distance `d` (m) from the station: 0 for
+    /// the inner column, `1 + i` for ring `i` (beyond the column radius, when there is
+    /// one).
+    fn inner_slot(&self, column: Option<f64>, d: f64) -> usize {
+        match column {
+            Some(c) if d >= c && !self.plan.rings.is_empty() => 1 + self.plan.ring_at(d),
+            _ => 0,
+        }
+    }
+
+    /// Zeroed sums for the inner square's slots: the inner column, and the rings when
+    /// there is a column radius.
+    fn inner_slots(column: Option<f64>, parts: &Parts) -> Vec<f64> {
+        vec![
+            0.0;
+            if column.is_some() {
+                1 + parts.rings.len()
+            } else {
+                1
+            }
+        ]
+    }
+
+    /// Adds the inner square's parts by slot (see [`Engine::inner_slot`]).
+    fn add_inner_slots(parts: &mut Parts, slots: &[f64]) {
+        parts.inner += slots[0];
+        for (ring, k) in parts.rings.iter_mut().zip(&slots[1..]) {
+            *ring += k;
+        }
+    }
+
+    /// The surface inner model over the cell square `cells`: the inner column's part to
+    /// `parts.inner`, with a column radius the rest to the rings at its radii.
+    pub(crate) fn surface_box<F: Frame>(
+        &self,
+        frame: &F,
+        p: Point,
+        cells: &CellBox,
+        column: Option<f64>,
+        parts: &mut Parts,
+    ) {
+        let breaks = self.inner_breaks(column);
+        let slot_of = |d: f64| self.inner_slot(column, d);
+        let mut slots = Engine::inner_slots(column, parts);
+        inner::surface_square_parts(
+            self.dem,
+            frame,
+            p,
+            cells,
+            self.config.convention.curvature(),
+            &inner::Split {
+                breaks: &breaks,
+                slot_of: &slot_of,
+            },
+            &mut slots,
+            &mut parts.inner_elements,
+        );
+        Engine::add_inner_slots(parts, &slots);
+    }
+
+    /// Adds the areas of the cell square's cells, each by its centre: all to the disc's
+    /// area, those beyond the column radius also to their ring's.
+    pub(crate) fn add_box_area<F: Frame>(
+        &self,
+        frame: &F,
+        p: Point,
+        cells: &CellBox,
+        column: Option<f64>,
+        parts: &mut Parts,
+    ) {
+        let outer = self.config.outer_radius_m;
+        inner::box_cell_areas(self.dem, frame, p, cells, outer, &mut |d, area| {
+            parts.area_m2 += area;
+            let slot = self.inner_slot(column, d);
+            if slot > 0 {
+                parts.ring_area_m2[slot - 1] += area;
+            }
+        });
+    }
+
+    #[allow(clippy::too_many_arguments)]
     fn zoned_parts<F: Frame>(
         &self,
         frame: &F,
@@ -446,6 +553,7 @@ impl<'a> Engine<'a> {
         parts: &mut Parts,
         skip_inner: bool,
         inner_zone: InnerZone,
+        column: Option<f64>,
     ) {
         let pyramid = &self.pyramid;
         let curvature = self.config.convention.curvature();
@@ -454,22 +562,26 @@ impl<'a> Engine<'a> {
             _ if skip_inner => None,
             InnerZone::Cells { half_width } => {
                 let cells = CellBox::around(self.dem, p.x, p.y, half_width);
-                let evaluations = &mut parts.inner_elements;
-                parts.inner += match self.config.inner_model {
-                    InnerModel::Surface => {
-                        inner::surface_square(self.dem, frame, p, &cells, curvature, evaluations)
+                match self.config.inner_model {
+                    InnerModel::Surface => self.surface_box(frame, p, &cells, column, parts),
+                    InnerModel::Prisms => {
+                        let slot_of = |d: f64| self.inner_slot(column, d);
+                        let mut slots = Engine::inner_slots(column, parts);
+                        inner::prisms_in_box_parts(
+                            self.dem,
+                            frame,
+                            p,
+                            &cells,
+                            curvature,
+                            outer,
+                            &slot_of,
+                            &mut slots,
+                            &mut parts.inner_elements,
+                        );
+                        Engine::add_inner_slots(parts, &slots);
                     }
-                    InnerModel::Prisms => inner::prisms_in_box(
-                        self.dem,
-                        frame,
-                        p,
-                        &cells,
-                        curvature,
-                        outer,
-                        evaluations,
-                    ),
-                };
-                parts.area_m2 += inner::box_area(self.dem, frame, p, &cells, outer);
+                }
+                self.add_box_area(frame, p, &cells, column, parts);
                 Some(blocks::Exclusion::Cells(cells))
             }
             InnerZone::Disc { radius_m } => {
@@ -501,10 +613,17 @@ impl<'a> Engine<'a> {
                 Some(blocks::Exclusion::Disc(radius_m))
             }
         };
-        let quad_outer = self.plan.quadtree_outer_m().min(outer);
+        // (The inner column's radius too: a plan whose rings start beyond the outer
+        // radius still has the cells within it.)
+        let quad_outer = self
+            .plan
+            .quadtree_outer_m()
+            .max(column.unwrap_or(0.0))
+            .min(outer);
         if quad_outer > 0.0 {
             blocks::walk(
-                self.dem, pyramid, &self.plan, frame, p, curvature, quad_outer, inner_box, parts,
+                self.dem, pyramid, &self.plan, frame, p, curvature, quad_outer, inner_box, column,
+                parts,
             );
         }
         sectors::sector_rings(self.dem, pyramid, &self.plan, frame, p, curvature, parts);
@@ -572,6 +691,14 @@ impl Parts {
         self.ring_elements[ring] += 1;
         self.area_m2 += area_m2;
         self.ring_area_m2[ring] += area_m2;
+    }
+
+    /// Adds one element's kernel to the inner column.
+    #[inline]
+    pub fn add_inner(&mut self, kernel: f64, area_m2: f64) {
+        self.inner += kernel;
+        self.inner_elements += 1;
+        self.area_m2 += area_m2;
     }
 }
 

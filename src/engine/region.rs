@@ -38,6 +38,19 @@ impl Rect {
         ne * ne + nn * nn
     }
 
+    /// Square of the distance from the station to the nearest cell centre the rectangle
+    /// can hold: the rectangle shrunk by half a cell (`he`, `hn`) on every side.
+    #[inline]
+    pub fn near_centre2(&self, he: f64, hn: f64) -> f64 {
+        Rect {
+            e_lo: self.e_lo + he,
+            e_hi: self.e_hi - he,
+            n_lo: self.n_lo + hn,
+            n_hi: self.n_hi - hn,
+        }
+        .near2()
+    }
+
     /// Square of the distance to the farthest corner, less half a cell (`he`, `hn`)
     /// in each direction: the farthest a cell centre of the block can be.
     #[inline]

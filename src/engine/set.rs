@@ -113,6 +113,11 @@ impl<'a> SetEngine<'a> {
             if i == serving {
                 continue;
             }
+            // Only the serving DEM integrates the inner zone; another DEM's inner column
+            // holds its cells within the plan's inner column radius (if any), outside
+            // the serving DEM's inner square.
+            combined.inner_m += r.inner_m;
+            combined.inner_elements += r.inner_elements;
             for (a, b) in combined.rings_m.iter_mut().zip(&r.rings_m) {
                 *a += b;
             }

@@ -29,20 +29,13 @@ use std::f64::consts::PI;
 /// Decimals of the corrections (mGal).
 pub const MGAL_DECIMALS: i32 = 4;
 
-/// The zone columns of a plan: each name with the rings it sums (consecutive rings of
-/// one name form one zone); empty unless the plan has per-zone columns.
+/// The zone columns of a plan: each name with the rings it sums (see
+/// [`ZonePlan::zone_columns`]); empty unless the plan has per-zone columns.
 pub fn zone_columns(plan: &ZonePlan) -> Vec<(String, Vec<usize>)> {
-    let mut out: Vec<(String, Vec<usize>)> = Vec::new();
-    if !plan.per_ring_columns {
-        return out;
-    }
-    for (i, ring) in plan.rings.iter().enumerate() {
-        match out.last_mut() {
-            Some((name, rings)) if *name == ring.name => rings.push(i),
-            _ => out.push((ring.name.clone(), vec![i])),
-        }
-    }
-    out
+    plan.zone_columns()
+        .into_iter()
+        .map(|z| (z.name, z.rings.collect()))
+        .collect()
 }
 
 /// The columns every per-station table starts with.
