@@ -34,7 +34,10 @@ pub enum ZonesChoice {
     Auto,
     Hammer,
     /// A plan file, read and checked.
-    File(ZonePlan),
+    File {
+        path: PathBuf,
+        plan: ZonePlan,
+    },
 }
 
 impl ZonesChoice {
@@ -43,7 +46,15 @@ impl ZonesChoice {
         match self {
             ZonesChoice::Auto => "auto".into(),
             ZonesChoice::Hammer => "hammer".into(),
-            ZonesChoice::File(p) => p.source.clone(),
+            ZonesChoice::File { path, .. } => path.display().to_string(),
+        }
+    }
+
+    /// The plan file, if the plan is one.
+    pub fn file(&self) -> Option<&Path> {
+        match self {
+            ZonesChoice::File { path, .. } => Some(path),
+            _ => None,
         }
     }
 }
@@ -119,11 +130,13 @@ pub struct TcSettings {
     pub allow_gaps: bool,
 }
 
-/// Parallelism and progress.
-#[derive(Debug, Clone, Copy, Default, PartialEq)]
+/// Parallelism, progress and the run record.
+#[derive(Debug, Clone, Default, PartialEq)]
 pub struct RunSettings {
     pub threads: Option<usize>,
     pub quiet: bool,
+    /// `--record PATH`: where the run record goes (else beside the output).
+    pub record: Option<PathBuf>,
 }
 
 /// Checked settings of the reduction chain (`correct` with observed gravity).
@@ -261,7 +274,10 @@ fn zones_choice(text: &str) -> anyhow::Result<ZonesChoice> {
                     path.display()
                 );
             }
-            ZonesChoice::File(ZonePlan::from_file(path)?)
+            ZonesChoice::File {
+                path: path.to_path_buf(),
+                plan: ZonePlan::from_file(path)?,
+            }
         }
     })
 }
@@ -271,7 +287,7 @@ impl TcSettings {
     pub fn from_args(args: &TcArgs) -> anyhow::Result<TcSettings> {
         let engine = engine_config(&args.zones, &args.physics)?;
         let zones = zones_choice(&args.zones.zones)?;
-        if let ZonesChoice::File(plan) = &zones {
+        if let ZonesChoice::File { plan, .. } = &zones {
             plan.clone().fitted_to(engine.outer_radius_m)?;
         }
         let density_kg_m3 = check_density(args.physics.density, "--density")?;
@@ -353,7 +369,7 @@ impl TcSettings {
         Ok(match &self.zones {
             ZonesChoice::Auto => ZonePlan::auto(cell_m, outer, &AutoSettings::default()),
             ZonesChoice::Hammer => ZonePlan::hammer(outer),
-            ZonesChoice::File(plan) => plan.clone().fitted_to(outer)?,
+            ZonesChoice::File { plan, .. } => plan.clone().fitted_to(outer)?,
         })
     }
 
@@ -368,12 +384,22 @@ impl TcSettings {
 }
 
 impl RunSettings {
-    /// Checks the thread count.
+    /// Checks the thread count and the record's path.
     pub fn from_args(args: &RunArgs) -> anyhow::Result<RunSettings> {
         crate::engine::run::check_threads(args.threads)?;
+        if let Some(p) = &args.record {
+            crate::output::files::check_extension(
+                p,
+                "--record",
+                &["json"],
+                "the run record is JSON; give a path ending in .json",
+            )?;
+            crate::output::files::check_writable(p, "--record")?;
+        }
         Ok(RunSettings {
             threads: args.threads,
             quiet: args.quiet,
+            record: args.record.clone(),
         })
     }
 }

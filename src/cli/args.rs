@@ -270,6 +270,12 @@ pub struct RunArgs {
     /// No progress bar or summary on stderr.
     #[arg(long, short, help_heading = "Output")]
     pub quiet: bool,
+
+    /// Where to write the run record (JSON: version, command line, settings, zone plan,
+    /// input files with their SHA-256, times, warnings). Default: beside the output,
+    /// OUT.run.json; with --out - only when given.
+    #[arg(long, value_name = "PATH", help_heading = "Output")]
+    pub record: Option<std::path::PathBuf>,
 }
 
 /// The size of a picture.

@@ -28,6 +28,7 @@ use crate::output::plot::{
     parse_plot_size, write_figure, HistogramFigure, PlotFormat, PlotTarget, ScatterFigure,
     ZoneFigure,
 };
+use crate::output::record::SettingsRecord;
 use crate::output::station_table::{zone_columns, StationColumns, LEADING_COLUMNS};
 use crate::output::table::{from_units, to_units, Cell, Table};
 use crate::results::PointTc;
@@ -64,6 +65,20 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
     let dup_distance = parse_threshold(&args.duplicate_distance, "--duplicate-distance", true)?;
     let plot_size = parse_plot_size(&args.plot_size.plot_size)?;
     check_duplicate_ids(&source.path, source.columns.station.as_deref())?;
+    let ext = match args.plot_format {
+        PlotFormatArg::Png => "png",
+        PlotFormatArg::Svg => "svg",
+    };
+    let plot_files: Vec<std::path::PathBuf> = match &args.plots {
+        Some(dir) => ["legacy_scatter", "legacy_histogram", "legacy_zones"]
+            .iter()
+            .map(|name| dir.join(format!("{name}.{ext}")))
+            .collect(),
+        None => Vec::new(),
+    };
+    let mut outputs: Vec<(&std::path::Path, &str)> = vec![(&args.out, "--out")];
+    outputs.extend(plot_files.iter().map(|p| (p.as_path(), "--plots")));
+    let mut book = super::RunBook::start("audit", &tc, &run, target.path(), &outputs)?;
     let opened = Opened::open(&tc)?;
     let footprint = opened.station_xy();
     let inputs = opened.read(&tc, &footprint)?;
@@ -71,7 +86,7 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
     let table = inputs.table();
     let stations = &table.stations;
     let plan = tc.plan(inputs.cell_m())?;
-    super::warn_sector_rings(&inputs, &tc, &plan, &run)?;
+    super::warn_sector_rings(&mut book, &inputs, &tc, &plan, &run)?;
     let radius = tc.engine.outer_radius_m;
 
     // Legacy columns.
@@ -310,10 +325,6 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
     }
 
     // Plots.
-    let ext = match args.plot_format {
-        PlotFormatArg::Png => "png",
-        PlotFormatArg::Svg => "svg",
-    };
     let format = match args.plot_format {
         PlotFormatArg::Png => PlotFormat::Png,
         PlotFormatArg::Svg => PlotFormat::Svg,
@@ -412,6 +423,11 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
     }
 
     report.write(&target)?;
+    book.finish(
+        Some(SettingsRecord::new(&tc, &plan, None)),
+        &inputs,
+        super::correct::threads(&run),
+    )?;
 
     // The human summary.
     let mut out = String::new();

@@ -35,13 +35,103 @@ pub fn print_notes(inputs: &Inputs, quiet: bool) {
 /// Warns (on stderr, even when quiet) about the sector rings of a plan file that miss
 /// the accuracy target on the first stations.
 pub fn warn_sector_rings(
+    book: &mut RunBook,
     inputs: &Inputs,
     tc: &crate::config::TcSettings,
     plan: &crate::zones::ZonePlan,
     run: &crate::config::RunSettings,
 ) -> anyhow::Result<()> {
     for warning in crate::compute::sector_ring_warnings(inputs, tc, plan, run)? {
-        eprintln!("ringsum: warning: {warning}");
+        book.warn(warning);
     }
     Ok(())
+}
+
+/// The bookkeeping of a run: the files it reads and writes checked against each other
+/// before any work, the inputs hashed while it runs, its warnings, and its record
+/// written beside its output at the end.
+pub struct RunBook {
+    record: crate::output::record::RecordStart,
+    record_path: Option<std::path::PathBuf>,
+    outputs: Vec<std::path::PathBuf>,
+    warnings: Vec<String>,
+}
+
+/// The option that names an input file of each role.
+fn input_option(role: &str) -> &'static str {
+    match role {
+        "dem" => "--dem",
+        "stations" => "--stations",
+        "density_raster" => "--density-raster",
+        "water_surface" => "--water-surface",
+        "zone_plan" => "--zones",
+        _ => "an input",
+    }
+}
+
+impl RunBook {
+    /// Checks that no output (`(path, option)`; `-` left out) is an input or another
+    /// output, the record included (beside `main_output`, or `--record`), and starts
+    /// hashing the inputs. Nothing has been read yet.
+    pub fn start(
+        command: &str,
+        tc: &crate::config::TcSettings,
+        run: &crate::config::RunSettings,
+        main_output: Option<&std::path::Path>,
+        outputs: &[(&std::path::Path, &str)],
+    ) -> anyhow::Result<RunBook> {
+        use crate::output::record::{input_files, record_path, RecordStart};
+        let files = input_files(tc);
+        let mut roles = crate::output::files::FileRoles::default();
+        for (role, path) in &files {
+            roles.input(path, input_option(role));
+        }
+        for (path, option) in outputs {
+            roles.output(path, option);
+        }
+        let record_path = record_path(main_output, run.record.as_deref());
+        if let Some(p) = &record_path {
+            roles.output(p, "the run record");
+        }
+        roles.check()?;
+        Ok(RunBook {
+            record: RecordStart::start(command, &files),
+            record_path,
+            outputs: outputs
+                .iter()
+                .filter(|(p, _)| p.as_os_str() != "-")
+                .map(|(p, _)| p.to_path_buf())
+                .collect(),
+            warnings: Vec::new(),
+        })
+    }
+
+    /// A warning: printed on stderr (even when quiet) and kept for the record.
+    pub fn warn(&mut self, warning: String) {
+        eprintln!("ringsum: warning: {warning}");
+        self.warnings.push(warning);
+    }
+
+    /// Writes the record (when there is a place for it).
+    pub fn finish(
+        self,
+        settings: Option<crate::output::record::SettingsRecord>,
+        inputs: &Inputs,
+        threads: usize,
+    ) -> anyhow::Result<()> {
+        let Some(path) = self.record_path else {
+            return Ok(());
+        };
+        let outputs: Vec<&std::path::Path> = self.outputs.iter().map(|p| p.as_path()).collect();
+        let record = self.record.finish(
+            settings,
+            crate::output::record::dem_records(&inputs.dems),
+            inputs.stations.as_ref().map(|t| t.stations.len()),
+            &outputs,
+            threads,
+            &inputs.notes,
+            &self.warnings,
+        )?;
+        record.write(&path)
+    }
 }

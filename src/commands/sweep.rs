@@ -23,6 +23,7 @@ use crate::output::files::TableTarget;
 use crate::output::plot::{
     check_plot_target, parse_plot_size, write_figure, PlotTarget, SweepCurve, SweepFigure,
 };
+use crate::output::record::SettingsRecord;
 use crate::output::table::{Cell, Table};
 use crate::results::PointTc;
 use crate::text::number;
@@ -180,6 +181,12 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
             );
         }
     }
+    let mut outputs: Vec<(&std::path::Path, &str)> = vec![(&args.out, "--out")];
+    if let Some(p) = &args.station_summary {
+        outputs.push((p, "--station-summary"));
+    }
+    outputs.extend(args.plot.iter().map(|p| (p.as_path(), "--plot")));
+    let mut book = super::RunBook::start("sweep", &tc, &run, target.path(), &outputs)?;
 
     let opened = Opened::open(&tc)?;
     let finest_files = opened.dems.files()[0].clone();
@@ -192,7 +199,7 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
     super::print_notes(&inputs, run.quiet);
 
     let plan = tc.plan(inputs.cell_m())?;
-    super::warn_sector_rings(&inputs, &tc, &plan, &run)?;
+    super::warn_sector_rings(&mut book, &inputs, &tc, &plan, &run)?;
     let inner_m = inner_zone_radius_m(&plan, inputs.cell_m());
     let asked = match &args.radii {
         Some(text) => parse_radii(text, inner_m, outer)?,
@@ -369,6 +376,11 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
         write_figure(p, plot_size, &figure)
             .with_context(|| format!("{}: the plot could not be drawn", p.path.display()))?;
     }
+    book.finish(
+        Some(SettingsRecord::new(&tc, &plan, None)),
+        &inputs,
+        super::correct::threads(&run),
+    )?;
 
     let text = summary_text(
         &main,

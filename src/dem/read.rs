@@ -3,13 +3,74 @@
 use super::{Dem, Ellipsoid, GridKind};
 use gdal::Dataset;
 use std::path::Path;
+use std::sync::{Mutex, Once};
+
+/// GDAL's messages since they were last taken (see [`catch_gdal_messages`]).
+static GDAL_MESSAGES: Mutex<Vec<String>> = Mutex::new(Vec::new());
+
+/// Routes GDAL's error and warning messages into a list instead of stderr, so that they
+/// reach the user folded into ringsum's one sentence. Set once.
+pub fn catch_gdal_messages() {
+    static ONCE: Once = Once::new();
+    ONCE.call_once(|| {
+        gdal::config::set_error_handler(|class, _number, message| {
+            if matches!(
+                class,
+                gdal::errors::CplErrType::Failure | gdal::errors::CplErrType::Fatal
+            ) {
+                if let Ok(mut m) = GDAL_MESSAGES.lock() {
+                    m.push(message.trim().to_string());
+                }
+            }
+        });
+    });
+}
+
+/// GDAL's messages since the last call, as one clause (`it says: ...`), or `otherwise`
+/// when GDAL said nothing (the library's own error text is not for users).
+fn gdal_says(otherwise: &str) -> String {
+    let messages = GDAL_MESSAGES
+        .lock()
+        .map(|mut m| std::mem::take(&mut *m))
+        .unwrap_or_default();
+    if messages.is_empty() {
+        otherwise.to_string()
+    } else {
+        format!("it says: {}", crate::text::cut(&messages.join("; "), 160))
+    }
+}
+
+/// Why GDAL may find no raster in a file it said nothing about.
+fn unreadable_why(path: &Path) -> String {
+    let ext = path
+        .extension()
+        .and_then(|e| e.to_str())
+        .map(str::to_ascii_lowercase)
+        .unwrap_or_default();
+    match ext.as_str() {
+        "csv" | "txt" | "tsv" | "xyz" => {
+            "it looks like a table, not a raster; stations go with --stations".into()
+        }
+        "gpkg" | "shp" | "geojson" | "json" | "fgb" | "kml" => {
+            "it holds vector data, not a raster".into()
+        }
+        _ => "no raster format GDAL knows matches it".into(),
+    }
+}
+
+/// Forgets GDAL's earlier messages (before a call whose messages are wanted).
+fn clear_gdal_messages() {
+    if let Ok(mut m) = GDAL_MESSAGES.lock() {
+        m.clear();
+    }
+}
 
 /// Why a DEM could not be used; each message is one sentence naming the file and what to do.
 #[derive(Debug, thiserror::Error)]
 pub enum DemError {
     #[error("{path}: file not found; check the path given with --dem")]
     NotFound { path: String },
-    #[error("{path}: GDAL cannot open it as a raster ({detail}); give a GeoTIFF, ASCII grid or another raster GDAL reads")]
+    #[error("{path}: this is not a raster GDAL can read ({detail}); give a GeoTIFF, ASCII grid or another raster GDAL reads")]
     Unreadable { path: String, detail: String },
     #[error("{path}: the raster has {bands} bands; give a single-band elevation raster (e.g. extract one with gdal_translate -b 1)")]
     Bands { path: String, bands: usize },
@@ -105,9 +166,19 @@ impl DemHeader {
         }
         // The grid is read once; GDAL's block cache would only hold a second copy.
         let _ = gdal::config::set_config_option("GDAL_CACHEMAX", "64");
-        let ds = Dataset::open(path).map_err(|e| DemError::Unreadable {
+        catch_gdal_messages();
+        clear_gdal_messages();
+        let ds = Dataset::open_ex(
+            path,
+            gdal::DatasetOptions {
+                open_flags: gdal::GdalOpenFlags::GDAL_OF_RASTER
+                    | gdal::GdalOpenFlags::GDAL_OF_READONLY,
+                ..Default::default()
+            },
+        )
+        .map_err(|_| DemError::Unreadable {
             path: p.clone(),
-            detail: e.to_string(),
+            detail: gdal_says(&unreadable_why(path)),
         })?;
         DemHeader::from_dataset(p, ds, heights)
     }
@@ -176,7 +247,7 @@ impl DemHeader {
         let crs_wkt = srs.to_wkt().unwrap_or_default();
         let band = ds.rasterband(1).map_err(|e| DemError::Read {
             path: p.clone(),
-            detail: e.to_string(),
+            detail: gdal_says(&e.to_string()),
         })?;
         let unit = band.unit();
         let nodata = band.no_data_value();
@@ -206,6 +277,16 @@ impl DemHeader {
             offset,
             unit,
         })
+    }
+
+    /// Declared nodata value, if any.
+    pub fn nodata(&self) -> Option<f64> {
+        self.nodata
+    }
+
+    /// The vertical unit as declared ("" when none; metres then).
+    pub fn vertical_unit(&self) -> &str {
+        &self.unit
     }
 
     /// The path (or the list of tiles) this header reads.
@@ -416,7 +497,7 @@ impl DemHeader {
         };
         let band = ds.rasterband(1).map_err(|e| DemError::Read {
             path: p.clone(),
-            detail: e.to_string(),
+            detail: gdal_says(&e.to_string()),
         })?;
         // Read straight into f32 (the DEM's own precision for almost every DEM) so that no
         // second, wider copy of the grid is ever held.
@@ -424,7 +505,7 @@ impl DemHeader {
             .read_as::<f32>((c0 as isize, r0 as isize), (cols, rows), (cols, rows), None)
             .map_err(|e| DemError::Read {
                 path: p.clone(),
-                detail: e.to_string(),
+                detail: gdal_says(&e.to_string()),
             })?;
         let (nodata, scale, offset) = (self.nodata, self.scale, self.offset);
         let (_, mut heights) = buffer.into_shape_and_vec();

@@ -6,5 +6,6 @@
 pub mod files;
 pub mod geotiff;
 pub mod plot;
+pub mod record;
 pub mod station_table;
 pub mod table;
