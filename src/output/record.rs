@@ -238,13 +238,12 @@ pub fn hash_file(path: &Path) -> std::io::Result<(u64, String)> {
     Ok((size, digest.iter().map(|b| format!("{b:02x}")).collect()))
 }
 
+/// A file's size and SHA-256, being computed on a thread of its own.
+type HashJob = std::thread::JoinHandle<std::io::Result<(u64, String)>>;
+
 /// Input files being hashed on threads of their own while the run goes on.
 pub struct Hashing {
-    jobs: Vec<(
-        String,
-        PathBuf,
-        std::thread::JoinHandle<std::io::Result<(u64, String)>>,
-    )>,
+    jobs: Vec<(String, PathBuf, HashJob)>,
 }
 
 impl Hashing {
