@@ -76,7 +76,9 @@ pub struct InputArgs {
     #[arg(long, value_name = "PATH", required = true, help_heading = "Input")]
     pub dem: Vec<PathBuf>,
 
-    /// Station file: CSV with a header. Columns are found by common names
+    /// Station file: a text table with a header (CSV; semicolon, tab or space separated;
+    /// `#` comment lines), or a point layer GDAL reads (GeoPackage, Shapefile, GeoJSON,
+    /// FlatGeobuf: positions and CRS from the layer). Columns are found by common names
     /// (station/id/name, x/east/easting, y/north/northing, elev/elevation/z/h; lon/lat
     /// imply EPSG:4326) or named with the --*-col options. Needed by correct, sweep and
     /// audit; map uses it for --extent stations and to mark the stations, plan to measure
@@ -101,6 +103,31 @@ pub struct InputArgs {
     /// Name of the station-height column (m, same vertical datum as the DEMs).
     #[arg(long, value_name = "NAME", help_heading = "Input")]
     pub elev_col: Option<String>,
+
+    /// Field separator of a text station file: comma, semicolon, tab or space (runs of
+    /// spaces). Default: found from the header line.
+    #[arg(long, value_name = "SEP", help_heading = "Input")]
+    pub delimiter: Option<String>,
+
+    /// Character encoding of a text station file: utf-8 (default) or latin-1.
+    #[arg(long, value_name = "NAME", help_heading = "Input")]
+    pub encoding: Option<String>,
+
+    /// Leave the station file's own other columns (line, date, operator, ...) out of the
+    /// per-station tables; by default they are carried, unchanged, after ringsum's.
+    #[arg(long, help_heading = "Output")]
+    pub drop_station_columns: bool,
+
+    /// Value that marks missing data in DEMs that declare no nodata value (e.g. -32768):
+    /// cells holding it are nodata. A DEM without a declared nodata whose cells hold such
+    /// a mark is refused until it is given.
+    #[arg(
+        long,
+        value_name = "VALUE",
+        allow_negative_numbers = true,
+        help_heading = "Input"
+    )]
+    pub dem_nodata: Option<f64>,
 
     /// Accept stations (or map nodes) whose outer radius reaches past the DEMs or into
     /// nodata; their coverage column says how much of the disc had data.

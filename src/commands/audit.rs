@@ -227,7 +227,7 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
         |i: usize| results[i].is_some() && (checks[i].coverage >= 1.0 || tc.allow_gaps);
 
     // The report.
-    let columns = StationColumns::of(&inputs);
+    let columns = StationColumns::of(&inputs, tc.carry_station_columns);
     let mut headers: Vec<String> = LEADING_COLUMNS
         .iter()
         .chain(&[
@@ -256,7 +256,11 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
         headers.push(format!("legacy_tc_{}_mgal", z.zone));
         headers.push(format!("diff_zone_{}_mgal", z.zone));
     }
+    let carried = columns.carried_headers(&inputs, &headers);
+    headers.extend(carried);
     let mut report = Table::new(&headers);
+    report.check_unique_headers("rename the legacy zone column")?;
+    report.points = Some(columns.points(&inputs, 1));
     let mut diffs: Vec<(usize, f64)> = Vec::new();
     let mut zone_diffs: Vec<Vec<f64>> = vec![Vec::new(); zone_columns.len()];
     for (i, (s, c)) in stations.iter().zip(&checks).enumerate() {
@@ -321,6 +325,7 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
             row.push(Cell::opt(old, 4));
             row.push(Cell::opt(diff, 4));
         }
+        row.extend(columns.carried_cells(&inputs, i));
         report.push(&s.id, row);
     }
 
@@ -660,7 +665,7 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
                 eprint!("{out}");
             }
         }
-        TableTarget::Csv(_) => print!("{out}"),
+        _ => print!("{out}"),
     }
     Ok(())
 }

@@ -49,6 +49,7 @@ pub fn correct(args: &CorrectArgs) -> anyhow::Result<()> {
         terms
             .as_deref()
             .zip(gravity.as_ref().map(|g| g.from_undulation)),
+        tc.carry_station_columns,
     )?;
     table.write(&target)?;
     book.finish(

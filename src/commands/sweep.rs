@@ -266,6 +266,8 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
         "coverage",
     ]));
     table.check_unique_headers("give --densities each value once")?;
+    let stations_columns = crate::output::station_table::StationColumns::of(&inputs, false);
+    table.points = Some(stations_columns.points(&inputs, radii.len()));
     let round4 = |v: f64| (v * 1e4).round() / 1e4;
     for (i, s) in stations.iter().enumerate() {
         let tc_i = &main.tc_mgal[i];
@@ -307,6 +309,7 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
         let mut t = Table::new(&extra_columns(&[
             "station", "tc_mgal", "r95_m", "r99_m", "coverage",
         ]));
+        t.points = Some(stations_columns.points(&inputs, 1));
         let last_j = radii.len() - 1;
         for (i, s) in stations.iter().enumerate() {
             let last = main.last(i);
@@ -400,7 +403,7 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
                 eprint!("{text}");
             }
         }
-        TableTarget::Csv(_) => print!("{text}"),
+        _ => print!("{text}"),
     }
     Ok(())
 }

@@ -136,6 +136,28 @@ pub fn is_geographic(definition: &str) -> bool {
         .unwrap_or(false)
 }
 
+/// The geographic (longitude, latitude) CRS of the datum of `definition`, as WKT.
+pub fn geographic_of(definition: &str) -> Option<String> {
+    SpatialRef::from_definition(definition)
+        .ok()?
+        .geog_cs()
+        .ok()?
+        .to_wkt()
+        .ok()
+}
+
+/// Longitude and latitude (degrees, east and north positive) of points given in the CRS
+/// `from`, on that CRS's own datum (its geographic CRS): for a DEM's CRS, the DEM's datum.
+pub fn lon_lat_on_datum(from: &str, points: &[(f64, f64)]) -> Result<Vec<(f64, f64)>, CrsError> {
+    let geographic = geographic_of(from).ok_or_else(|| CrsError::Unknown {
+        name: "the DEM's CRS".into(),
+    })?;
+    let t = Transform::between(from, &geographic, "the DEM's CRS", "its geographic CRS")?;
+    let mut out = points.to_vec();
+    t.convert_all(&mut out)?;
+    Ok(out)
+}
+
 /// Geodetic longitude and latitude (degrees, WGS 84, east and north positive) of points
 /// given in the CRS `from` (EPSG code, PROJ string or WKT), through PROJ with its
 /// normalised axis order (longitude first). Latitudes on WGS 84 and on GRS80 differ by

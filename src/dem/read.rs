@@ -28,7 +28,7 @@ pub fn catch_gdal_messages() {
 
 /// GDAL's messages since the last call, as one clause (`it says: ...`), or `otherwise`
 /// when GDAL said nothing (the library's own error text is not for users).
-fn gdal_says(otherwise: &str) -> String {
+pub fn gdal_says(otherwise: &str) -> String {
     let messages = GDAL_MESSAGES
         .lock()
         .map(|mut m| std::mem::take(&mut *m))
@@ -100,6 +100,12 @@ pub enum DemError {
     VerticalUnit { path: String, unit: String },
     #[error("{path}: every cell is nodata; give a DEM with elevation values")]
     AllNodata { path: String },
+    #[error("{path}: {count} cell(s) hold {value}, which is no height on the Earth but the usual mark of missing data, and the file declares no nodata value; give --dem-nodata {value} if these cells have no data, or fix the file")]
+    Void {
+        path: String,
+        value: f64,
+        count: usize,
+    },
     #[error("{path}: reading the raster failed ({detail})")]
     Read { path: String, detail: String },
 }
@@ -143,6 +149,8 @@ pub struct DemHeader {
     offset: f64,
     /// Band 1's unit as declared ("" when none).
     unit: String,
+    /// Whether the band holds heights (checked against the Earth's relief).
+    heights: bool,
 }
 
 impl DemHeader {
@@ -276,12 +284,25 @@ impl DemHeader {
             scale,
             offset,
             unit,
+            heights,
         })
     }
 
     /// Declared nodata value, if any.
     pub fn nodata(&self) -> Option<f64> {
         self.nodata
+    }
+
+    /// Takes `value` as the nodata value when the file declares none (`--dem-nodata`).
+    pub fn assume_nodata(&mut self, value: Option<f64>) {
+        if self.nodata.is_none() {
+            self.nodata = value;
+        }
+        if let Source::Tiles(tiles) = &mut self.source {
+            for (t, _, _) in tiles {
+                t.assume_nodata(value);
+            }
+        }
     }
 
     /// The vertical unit as declared ("" when none; metres then).
@@ -388,6 +409,7 @@ impl DemHeader {
             scale,
             offset: offset_v,
             unit,
+            heights: true,
         }
     }
 
@@ -509,6 +531,9 @@ impl DemHeader {
             })?;
         let (nodata, scale, offset) = (self.nodata, self.scale, self.offset);
         let (_, mut heights) = buffer.into_shape_and_vec();
+        if self.heights && nodata.is_none() {
+            self.check_voids(&heights)?;
+        }
         let nodata_f32 = nodata.map(|nd| nd as f32);
         let identity = scale == 1.0 && offset == 0.0 && self.unit_factor == 1.0;
         for h in heights.iter_mut() {
@@ -523,6 +548,54 @@ impl DemHeader {
             }
         }
         Ok(heights)
+    }
+}
+
+/// Values DEMs commonly hold where they have no data (from memory: the ones seen in
+/// national and global DEM products and GIS defaults).
+pub const USUAL_VOID_MARKS: [f64; 7] = [
+    -32768.0,
+    -32767.0,
+    -9999.0,
+    -99999.0,
+    32767.0,
+    f32::MAX as f64,
+    -(f32::MAX as f64),
+];
+
+/// Heights a DEM cell may hold, m (raw values, before scale and unit): the ocean trenches
+/// to the summits with a margin; a value outside is no height on the Earth.
+pub const DEM_HEIGHT_RANGE_M: (f64, f64) = (-12_000.0, 9_500.0);
+
+impl DemHeader {
+    /// Refuses raw values that mark missing data (or are no height on the Earth) in a file
+    /// that declares no nodata value, naming the value and the option to declare it.
+    fn check_voids(&self, raw: &[f32]) -> Result<(), DemError> {
+        let height = |v: f32| (v as f64 * self.scale + self.offset) * self.unit_factor;
+        let mut worst: Option<(f32, usize)> = None;
+        for &v in raw {
+            if v.is_nan() {
+                continue;
+            }
+            let h = height(v);
+            let void = USUAL_VOID_MARKS.iter().any(|&m| v as f64 == m)
+                || !(DEM_HEIGHT_RANGE_M.0..=DEM_HEIGHT_RANGE_M.1).contains(&h);
+            if void {
+                match &mut worst {
+                    Some((w, n)) if *w == v => *n += 1,
+                    None => worst = Some((v, 1)),
+                    _ => {}
+                }
+            }
+        }
+        match worst {
+            None => Ok(()),
+            Some((value, count)) => Err(DemError::Void {
+                path: self.path.clone(),
+                value: value as f64,
+                count,
+            }),
+        }
     }
 }
 

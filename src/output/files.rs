@@ -54,13 +54,19 @@ fn unregister(path: &Path) {
 /// Where a table goes.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub enum TableTarget {
+    /// CSV on standard output.
     Stdout,
     Csv(PathBuf),
+    /// A GeoPackage point layer in the stations' CRS.
+    GeoPackage(PathBuf),
+    /// GeoJSON (RFC 7946) points in longitude and latitude.
+    GeoJson(PathBuf),
 }
 
 impl TableTarget {
-    /// Checks a table's output path before any work: `-` is standard output; a file must
-    /// end in `.csv` and go to a folder that exists and takes new files.
+    /// Checks a table's output path before any work: `-` is standard output (CSV); a file
+    /// ends in `.csv`, `.gpkg` or `.geojson` and goes to a folder that exists and takes
+    /// new files.
     pub fn check(path: &Path, option: &str) -> anyhow::Result<TableTarget> {
         if path.as_os_str() == "-" {
             return Ok(TableTarget::Stdout);
@@ -68,18 +74,27 @@ impl TableTarget {
         check_extension(
             path,
             option,
-            &["csv"],
-            "tables are written as .csv; give a path ending in .csv, or - for standard output",
+            &["csv", "gpkg", "geojson"],
+            "tables are written as .csv, .gpkg (GeoPackage) or .geojson; give a path with one of these endings, or - for CSV on standard output",
         )?;
         check_writable(path, option)?;
-        Ok(TableTarget::Csv(path.to_path_buf()))
+        let ext = path
+            .extension()
+            .and_then(|e| e.to_str())
+            .map(str::to_ascii_lowercase)
+            .unwrap_or_default();
+        Ok(match ext.as_str() {
+            "gpkg" => TableTarget::GeoPackage(path.to_path_buf()),
+            "geojson" => TableTarget::GeoJson(path.to_path_buf()),
+            _ => TableTarget::Csv(path.to_path_buf()),
+        })
     }
 
     /// How the target reads in a summary.
     pub fn describe(&self) -> String {
-        match self {
-            TableTarget::Stdout => "standard output".to_string(),
-            TableTarget::Csv(p) => p.display().to_string(),
+        match self.path() {
+            None => "standard output".to_string(),
+            Some(p) => p.display().to_string(),
         }
     }
 
@@ -87,7 +102,7 @@ impl TableTarget {
     pub fn path(&self) -> Option<&Path> {
         match self {
             TableTarget::Stdout => None,
-            TableTarget::Csv(p) => Some(p),
+            TableTarget::Csv(p) | TableTarget::GeoPackage(p) | TableTarget::GeoJson(p) => Some(p),
         }
     }
 }

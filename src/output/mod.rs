@@ -9,3 +9,4 @@ pub mod plot;
 pub mod record;
 pub mod station_table;
 pub mod table;
+pub mod vector;

@@ -1,0 +1,288 @@
+//! Reading a table of records: a delimited text file (CSV and its kin) or a point layer
+//! of any vector format GDAL/OGR reads (GeoPackage, Shapefile, GeoJSON, FlatGeobuf, ...).
+//!
+//! Text files: the delimiter is found from the header line (comma, semicolon, tab, or
+//! runs of spaces) unless given; lines starting with `#` are comments; an empty file is
+//! called empty; a file that is not UTF-8 is named as such (Latin-1 can be read with an
+//! option; UTF-16 is recognised by its byte-order mark); a header naming one column twice
+//! is refused; echoed values are cut to a readable length.
+
+pub use crate::config::{Delimiter, Encoding, TextOptions};
+use crate::text::cut;
+use gdal::vector::LayerAccess;
+use std::path::Path;
+
+/// Longest value echoed in a message, characters.
+pub const ECHO_MAX: usize = 40;
+
+/// Records as read: the header, each row with its line (or feature number), and for a
+/// vector layer each feature's point and the layer's CRS.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Records {
+    pub headers: Vec<String>,
+    pub rows: Vec<(u64, Vec<String>)>,
+    /// Point geometry of each row (x, y, and z when the layer has heights).
+    pub points: Option<Vec<(f64, f64, Option<f64>)>>,
+    /// CRS of the layer's geometry, as WKT.
+    pub crs: Option<String>,
+    /// How each row is called in messages: `line` for text, `feature` for layers.
+    pub row_word: &'static str,
+}
+
+/// File name endings read as vector layers through OGR.
+pub const VECTOR_EXTENSIONS: &[&str] = &[
+    "gpkg", "shp", "geojson", "json", "fgb", "gml", "kml", "sqlite", "tab", "mif",
+];
+
+/// Whether `path` is read as a vector layer (by its ending).
+pub fn is_vector(path: &Path) -> bool {
+    path.extension()
+        .and_then(|e| e.to_str())
+        .map(|e| VECTOR_EXTENSIONS.contains(&e.to_ascii_lowercase().as_str()))
+        .unwrap_or(false)
+}
+
+/// Reads the records of `path` (a text table, or a vector layer by its ending).
+pub fn read(path: &Path, options: &TextOptions) -> Result<Records, String> {
+    if is_vector(path) {
+        read_layer(path)
+    } else {
+        read_text(path, options)
+    }
+}
+
+/// Decodes the bytes of a text file.
+fn decode(bytes: Vec<u8>, encoding: Encoding) -> Result<String, String> {
+    if bytes.starts_with(&[0xFF, 0xFE]) || bytes.starts_with(&[0xFE, 0xFF]) {
+        return Err("the file is UTF-16 text; save it as UTF-8".into());
+    }
+    match encoding {
+        Encoding::Latin1 => Ok(bytes.iter().map(|&b| b as char).collect()),
+        Encoding::Utf8 => String::from_utf8(bytes).map_err(|e| {
+            let at = e.utf8_error().valid_up_to();
+            let line = e.as_bytes()[..at].iter().filter(|&&b| b == b'\n').count() + 1;
+            format!(
+                "the file is not UTF-8 text (byte 0x{:02X} on line {line}); save it as UTF-8, or give --encoding latin-1 if it is Latin-1",
+                e.as_bytes()[at]
+            )
+        }),
+    }
+}
+
+/// The delimiter of a header line: the most frequent of comma, semicolon and tab, else
+/// runs of spaces.
+fn detect(header: &str) -> Delimiter {
+    let count = |c: char| header.matches(c).count();
+    let candidates = [
+        (count(','), Delimiter::Comma),
+        (count(';'), Delimiter::Semicolon),
+        (count('\t'), Delimiter::Tab),
+    ];
+    let best = candidates.iter().max_by_key(|(n, _)| *n).expect("three");
+    if best.0 > 0 {
+        best.1
+    } else {
+        Delimiter::Spaces
+    }
+}
+
+fn read_text(path: &Path, options: &TextOptions) -> Result<Records, String> {
+    let bytes = std::fs::read(path).map_err(|e| format!("cannot read it ({})", e.kind()))?;
+    let text = decode(bytes, options.encoding)?;
+    let text = text.trim_start_matches('\u{feff}');
+    let is_content = |l: &str| !l.trim().is_empty() && !l.trim_start().starts_with('#');
+    let Some(header_line) = text.lines().find(|l| is_content(l)) else {
+        return Err(
+            "the file is empty; give a station file with a header and one row per station".into(),
+        );
+    };
+    let delimiter = options.delimiter.unwrap_or_else(|| detect(header_line));
+    // Runs of spaces become single tabs for the CSV reader, line by line (so that line
+    // numbers stay those of the file).
+    let prepared: std::borrow::Cow<str> = if delimiter == Delimiter::Spaces {
+        std::borrow::Cow::Owned(
+            text.lines()
+                .map(|l| {
+                    if is_content(l) {
+                        l.split_whitespace().collect::<Vec<_>>().join("\t")
+                    } else {
+                        l.to_string()
+                    }
+                })
+                .collect::<Vec<_>>()
+                .join("\n"),
+        )
+    } else {
+        std::borrow::Cow::Borrowed(text)
+    };
+    let byte = match delimiter {
+        Delimiter::Comma => b',',
+        Delimiter::Semicolon => b';',
+        Delimiter::Tab | Delimiter::Spaces => b'\t',
+    };
+    let mut reader = csv::ReaderBuilder::new()
+        .delimiter(byte)
+        .comment(Some(b'#'))
+        .flexible(false)
+        .trim(csv::Trim::All)
+        .from_reader(prepared.as_bytes());
+    let headers: Vec<String> = reader
+        .headers()
+        .map_err(|e| format!("the header cannot be read ({e})"))?
+        .iter()
+        .map(|h| h.trim().to_string())
+        .collect();
+    check_headers(&headers, delimiter)?;
+    let mut rows = Vec::new();
+    for result in reader.records() {
+        let record = result.map_err(|e| {
+            let line = e.position().map(|pos| pos.line()).unwrap_or(0);
+            match e.kind() {
+                csv::ErrorKind::UnequalLengths { len, expected_len, .. } => format!(
+                    "line {line}: the row has {len} fields where the header has {expected_len} ({} separated); give every row as many fields as the header",
+                    delimiter.name()
+                ),
+                _ => format!("line {line}: the row cannot be read ({e})"),
+            }
+        })?;
+        let line = record.position().map(|pos| pos.line()).unwrap_or(0);
+        if record.iter().all(|f| f.trim().is_empty()) {
+            continue;
+        }
+        rows.push((line, record.iter().map(str::to_string).collect()));
+    }
+    Ok(Records {
+        headers,
+        rows,
+        points: None,
+        crs: None,
+        row_word: "line",
+    })
+}
+
+/// Refuses an empty header name and a name given twice.
+fn check_headers(headers: &[String], delimiter: Delimiter) -> Result<(), String> {
+    if headers.len() < 2 {
+        return Err(format!(
+            "the header has one column ('{}') when read as {} separated; give --delimiter if the file uses another separator",
+            cut(headers.first().map(String::as_str).unwrap_or(""), ECHO_MAX),
+            delimiter.name()
+        ));
+    }
+    for (i, h) in headers.iter().enumerate() {
+        if let Some(j) = headers[..i].iter().position(|g| g.eq_ignore_ascii_case(h)) {
+            return Err(format!(
+                "the header names the column '{}' twice (columns {} and {}); rename one",
+                cut(h, ECHO_MAX),
+                j + 1,
+                i + 1
+            ));
+        }
+    }
+    Ok(())
+}
+
+fn read_layer(path: &Path) -> Result<Records, String> {
+    crate::dem::read::catch_gdal_messages();
+    let ds = gdal::Dataset::open_ex(
+        path,
+        gdal::DatasetOptions {
+            open_flags: gdal::GdalOpenFlags::GDAL_OF_VECTOR
+                | gdal::GdalOpenFlags::GDAL_OF_READONLY,
+            ..Default::default()
+        },
+    )
+    .map_err(|_| "this is not a vector layer GDAL can read; give a CSV, GeoPackage, Shapefile, GeoJSON or FlatGeobuf file".to_string())?;
+    if ds.layer_count() == 0 {
+        return Err("the file holds no layer".into());
+    }
+    let mut layer = ds
+        .layer(0)
+        .map_err(|_| "its first layer cannot be read".to_string())?;
+    let crs = layer.spatial_ref().and_then(|s| s.to_wkt().ok());
+    let defn = layer.defn();
+    let headers: Vec<String> = defn.fields().map(|f| f.name()).collect();
+    let mut rows = Vec::new();
+    let mut points = Vec::new();
+    for (k, feature) in layer.features().enumerate() {
+        let number = k as u64 + 1;
+        let geometry = feature
+            .geometry()
+            .ok_or_else(|| format!("feature {number} has no geometry; give a layer of points"))?;
+        if geometry.geometry_type() != gdal::vector::OGRwkbGeometryType::wkbPoint
+            && geometry.geometry_type() != gdal::vector::OGRwkbGeometryType::wkbPoint25D
+        {
+            return Err(format!(
+                "feature {number} is a {}, not a point; give a layer of points",
+                geometry.geometry_name()
+            ));
+        }
+        let (x, y, z) = geometry.get_point(0);
+        let has_z = geometry.geometry_type() == gdal::vector::OGRwkbGeometryType::wkbPoint25D;
+        points.push((x, y, has_z.then_some(z)));
+        let fields: Vec<String> = (0..headers.len())
+            .map(|i| match feature.field_as_string(i) {
+                Ok(Some(v)) => v,
+                _ => String::new(),
+            })
+            .collect();
+        rows.push((number, fields));
+    }
+    Ok(Records {
+        headers,
+        rows,
+        points: Some(points),
+        crs,
+        row_word: "feature",
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn text(content: &[u8], options: TextOptions) -> Result<Records, String> {
+        let f = tempfile::Builder::new().suffix(".csv").tempfile().unwrap();
+        std::fs::write(f.path(), content).unwrap();
+        read(f.path(), &options)
+    }
+
+    #[test]
+    fn delimiters_are_found() {
+        for content in [
+            "station,x,y,elev\nA,1,2,3\n",
+            "station;x;y;elev\nA;1;2;3\n",
+            "station\tx\ty\telev\nA\t1\t2\t3\n",
+            "station   x  y elev\n  A 1   2 3\n",
+            "# a comment\nstation,x,y,elev\n# another\nA,1,2,3\n\n",
+        ] {
+            let r = text(content.as_bytes(), TextOptions::default()).unwrap();
+            assert_eq!(r.headers, ["station", "x", "y", "elev"], "{content}");
+            assert_eq!(r.rows.len(), 1);
+            assert_eq!(r.rows[0].1, ["A", "1", "2", "3"]);
+        }
+        let r = text(
+            b"# c\nstation,x,y,elev\n# c\nA,1,2,3\n",
+            TextOptions::default(),
+        )
+        .unwrap();
+        assert_eq!(r.rows[0].0, 4, "line numbers are the file's");
+    }
+
+    #[test]
+    fn bad_files_are_named_for_what_they_are() {
+        let e = |content: &[u8]| text(content, TextOptions::default()).unwrap_err();
+        assert!(e(b"").contains("empty"));
+        assert!(e(b"# only a comment\n\n").contains("empty"));
+        assert!(e(b"station,x,y,elev,elev\nA,1,2,3,4\n").contains("'elev' twice"));
+        assert!(e(b"\xff\xfes\x00t\x00").contains("UTF-16"));
+        assert!(e(b"station,x,y,elev\nM\xfcller,1,2,3\n").contains("not UTF-8"));
+        let latin = TextOptions {
+            encoding: Encoding::Latin1,
+            ..TextOptions::default()
+        };
+        let r = text(b"station,x,y,elev\nM\xfcller,1,2,3\n", latin).unwrap();
+        assert_eq!(r.rows[0].1[0], "M\u{fc}ller");
+        assert!(e(b"station,x,y,elev\nA,1,2\n").contains("3 fields where the header has 4"));
+    }
+}
