@@ -283,7 +283,7 @@ impl WaterSettings {
 impl StationSource {
     fn from_args(input: &InputArgs) -> anyhow::Result<Option<StationSource>> {
         let delimiter = match &input.delimiter {
-            Some(text) => Some(Delimiter::parse(text).map_err(|e| UsageError(e))?),
+            Some(text) => Some(Delimiter::parse(text).map_err(UsageError)?),
             None => None,
         };
         let encoding = match input.encoding.as_deref() {

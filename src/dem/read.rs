@@ -578,7 +578,7 @@ impl DemHeader {
                 continue;
             }
             let h = height(v);
-            let void = USUAL_VOID_MARKS.iter().any(|&m| v as f64 == m)
+            let void = USUAL_VOID_MARKS.contains(&(v as f64))
                 || !(DEM_HEIGHT_RANGE_M.0..=DEM_HEIGHT_RANGE_M.1).contains(&h);
             if void {
                 match &mut worst {
