@@ -97,24 +97,23 @@ fn read_text(path: &Path, options: &TextOptions) -> Result<Records, String> {
         );
     };
     let delimiter = options.delimiter.unwrap_or_else(|| detect(header_line));
-    // Runs of spaces become single tabs for the CSV reader, line by line (so that line
-    // numbers stay those of the file).
-    let prepared: std::borrow::Cow<str> = if delimiter == Delimiter::Spaces {
-        std::borrow::Cow::Owned(
-            text.lines()
-                .map(|l| {
-                    if is_content(l) {
-                        l.split_whitespace().collect::<Vec<_>>().join("\t")
-                    } else {
-                        l.to_string()
-                    }
-                })
-                .collect::<Vec<_>>()
-                .join("\n"),
-        )
-    } else {
-        std::borrow::Cow::Borrowed(text)
-    };
+    // Comment lines become empty lines, which the CSV reader skips, and runs of spaces
+    // single tabs, line by line, so that the lines stay those of the file. The reader's
+    // own line count leaves out the lines it skips: a row's line is found from its byte
+    // position instead.
+    let prepared: String = text
+        .lines()
+        .map(|l| if !is_content(l) { "" } else { l })
+        .map(|l| {
+            if delimiter == Delimiter::Spaces {
+                l.split_whitespace().collect::<Vec<_>>().join("\t")
+            } else {
+                l.to_string()
+            }
+        })
+        .collect::<Vec<_>>()
+        .join("\n");
+    let line_of = LineIndex::new(&prepared);
     let byte = match delimiter {
         Delimiter::Comma => b',',
         Delimiter::Semicolon => b';',
@@ -122,7 +121,6 @@ fn read_text(path: &Path, options: &TextOptions) -> Result<Records, String> {
     };
     let mut reader = csv::ReaderBuilder::new()
         .delimiter(byte)
-        .comment(Some(b'#'))
         .flexible(false)
         .trim(csv::Trim::All)
         .from_reader(prepared.as_bytes());
@@ -136,7 +134,7 @@ fn read_text(path: &Path, options: &TextOptions) -> Result<Records, String> {
     let mut rows = Vec::new();
     for result in reader.records() {
         let record = result.map_err(|e| {
-            let line = e.position().map(|pos| pos.line()).unwrap_or(0);
+            let line = e.position().map(|pos| line_of.line(pos.byte())).unwrap_or(0);
             match e.kind() {
                 csv::ErrorKind::UnequalLengths { len, expected_len, .. } => format!(
                     "line {line}: the row has {len} fields where the header has {expected_len} ({} separated); give every row as many fields as the header",
@@ -145,7 +143,10 @@ fn read_text(path: &Path, options: &TextOptions) -> Result<Records, String> {
                 _ => format!("line {line}: the row cannot be read ({e})"),
             }
         })?;
-        let line = record.position().map(|pos| pos.line()).unwrap_or(0);
+        let line = record
+            .position()
+            .map(|pos| line_of.line(pos.byte()))
+            .unwrap_or(0);
         if record.iter().all(|f| f.trim().is_empty()) {
             continue;
         }
@@ -158,6 +159,38 @@ fn read_text(path: &Path, options: &TextOptions) -> Result<Records, String> {
         crs: None,
         row_word: "line",
     })
+}
+
+/// The line numbers of a text: where each line starts.
+struct LineIndex<'a> {
+    text: &'a [u8],
+    starts: Vec<usize>,
+}
+
+impl<'a> LineIndex<'a> {
+    fn new(text: &'a str) -> LineIndex<'a> {
+        let text = text.as_bytes();
+        let starts = std::iter::once(0)
+            .chain(
+                text.iter()
+                    .enumerate()
+                    .filter(|(_, &b)| b == b'\n')
+                    .map(|(i, _)| i + 1),
+            )
+            .collect();
+        LineIndex { text, starts }
+    }
+
+    /// The line (1 = the first) of the first character at or after `byte` that does not
+    /// end a line: the reader reports where it started looking, before the empty lines
+    /// it skips.
+    fn line(&self, byte: u64) -> u64 {
+        let mut at = (byte as usize).min(self.text.len());
+        while at < self.text.len() && matches!(self.text[at], b'\n' | b'\r') {
+            at += 1;
+        }
+        self.starts.partition_point(|&s| s <= at) as u64
+    }
 }
 
 /// Refuses an empty header name and a name given twice.
@@ -267,6 +300,19 @@ mod tests {
         )
         .unwrap();
         assert_eq!(r.rows[0].0, 4, "line numbers are the file's");
+        let r = text(
+            b"\n# c\nstation,x,y,elev\n\n   \nA,1,2,3\n# c\n\nB,1,2,3\n",
+            TextOptions::default(),
+        )
+        .unwrap();
+        let lines: Vec<u64> = r.rows.iter().map(|(l, _)| *l).collect();
+        assert_eq!(lines, [6, 9], "empty and comment lines are counted");
+        let e = text(
+            b"station,x,y,elev\n# c\n\nA,1,2,3\n\n# c\nB,1,2\n",
+            TextOptions::default(),
+        )
+        .unwrap_err();
+        assert!(e.starts_with("line 7:"), "{e}");
     }
 
     #[test]
