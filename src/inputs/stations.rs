@@ -105,30 +105,68 @@ pub struct StationTable {
     pub input_crs: Option<String>,
     /// The columns ringsum read (id, and the x, y and height columns of a text file).
     pub used_columns: Vec<usize>,
+    /// The columns other parts looked up and read (gravity, undulation, density, field
+    /// inner zone, legacy corrections), through [`StationTable::find_column`] and
+    /// [`StationTable::named_column`].
+    looked_up: LookedUp,
+}
+
+/// Columns looked up in a table shared by reference (the lookups take `&self`).
+#[derive(Debug, Default)]
+struct LookedUp(std::sync::Mutex<Vec<usize>>);
+
+impl LookedUp {
+    fn add(&self, col: usize) {
+        let mut cols = self.0.lock().unwrap_or_else(|p| p.into_inner());
+        if !cols.contains(&col) {
+            cols.push(col);
+        }
+    }
+
+    fn get(&self) -> Vec<usize> {
+        self.0.lock().unwrap_or_else(|p| p.into_inner()).clone()
+    }
+}
+
+impl Clone for LookedUp {
+    fn clone(&self) -> LookedUp {
+        LookedUp(std::sync::Mutex::new(self.get()))
+    }
 }
 
 impl StationTable {
-    /// The file's other columns (those ringsum did not read), in file order.
+    /// The file's other columns (those ringsum did not read: neither the station's id,
+    /// position and height nor a column looked up for its values), in file order.
     pub fn other_columns(&self) -> Vec<usize> {
+        let looked_up = self.looked_up.get();
         (0..self.headers.len())
-            .filter(|c| !self.used_columns.contains(c))
+            .filter(|c| !self.used_columns.contains(c) && !looked_up.contains(c))
             .collect()
     }
 
     /// Index of a column found by the given names (case-insensitive), or by the name the
-    /// user gave.
+    /// user gave; a column found is one ringsum reads (not carried to the tables).
     pub fn find_column(&self, names: &[&str]) -> Option<usize> {
-        find_column(&self.headers, names)
+        let col = find_column(&self.headers, names);
+        if let Some(c) = col {
+            self.looked_up.add(c);
+        }
+        col
     }
 
-    /// Index of a column named explicitly, with an error listing the columns if absent.
+    /// Index of a column named explicitly, with an error listing the columns if absent;
+    /// a column found is one ringsum reads (not carried to the tables).
     pub fn named_column(&self, name: &str, option: &'static str) -> Result<usize, StationError> {
-        find_column(&self.headers, &[name]).ok_or_else(|| StationError::NamedColumnMissing {
-            path: self.path.display().to_string(),
-            name: name.to_string(),
-            option,
-            found: self.headers.join(", "),
-        })
+        let col = find_column(&self.headers, &[name]).ok_or_else(|| {
+            StationError::NamedColumnMissing {
+                path: self.path.display().to_string(),
+                name: cut(name, ECHO_MAX),
+                option,
+                found: cut(&self.headers.join(", "), 200),
+            }
+        })?;
+        self.looked_up.add(col);
+        Ok(col)
     }
 
     /// The density of every station from the column `name` (kg/m3, each checked like
@@ -387,6 +425,7 @@ pub fn read_stations(
         records,
         input_crs,
         used_columns,
+        looked_up: LookedUp::default(),
     })
 }
 
