@@ -56,8 +56,12 @@ pub fn bytes_text(bytes: f64) -> String {
         format!("{:.0} kB", (bytes / 1e3).max(1.0))
     } else if bytes < 1e9 {
         format!("{:.1} MB", bytes / 1e6)
-    } else {
+    } else if bytes < 1e12 {
         format!("{:.1} GB", bytes / 1e9)
+    } else if bytes < 1e15 {
+        format!("{:.1} TB", bytes / 1e12)
+    } else {
+        format!("{:.1e} TB", bytes / 1e12)
     }
 }
 
