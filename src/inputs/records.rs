@@ -86,8 +86,41 @@ fn detect(header: &str) -> Delimiter {
     }
 }
 
+/// What a file holding NUL bytes is, as a sentence's end: no text table has them.
+fn not_text(path: &Path, bytes: &[u8]) -> String {
+    crate::dem::read::catch_gdal_messages();
+    let raster = gdal::Dataset::open_ex(
+        path,
+        gdal::DatasetOptions {
+            open_flags: gdal::GdalOpenFlags::GDAL_OF_RASTER | gdal::GdalOpenFlags::GDAL_OF_READONLY,
+            ..Default::default()
+        },
+    );
+    // Forget whatever GDAL said while trying.
+    let _ = crate::dem::read::gdal_says("");
+    if raster.is_ok() {
+        return "this is a raster, not a station table; DEMs go with --dem, and stations as a text table or a point layer".into();
+    }
+    // ASCII text in UTF-16 has every other byte zero.
+    let head = &bytes[..bytes.len().min(200)];
+    let zeros = |parity: usize| {
+        head.iter()
+            .enumerate()
+            .filter(|(i, &b)| i % 2 == parity && b == 0)
+            .count()
+    };
+    if head.len() >= 4 && (zeros(0) * 2 >= head.len() - 1 || zeros(1) * 2 >= head.len() - 1) {
+        return "the file is UTF-16 text (without a byte-order mark); save it as UTF-8".into();
+    }
+    "the file is not text (it holds NUL bytes); give the stations as a text table (CSV) or a point layer".into()
+}
+
 fn read_text(path: &Path, options: &TextOptions) -> Result<Records, String> {
     let bytes = std::fs::read(path).map_err(|e| format!("cannot read it ({})", e.kind()))?;
+    let bom16 = bytes.starts_with(&[0xFF, 0xFE]) || bytes.starts_with(&[0xFE, 0xFF]);
+    if !bom16 && bytes.contains(&0) {
+        return Err(not_text(path, &bytes));
+    }
     let text = decode(bytes, options.encoding)?;
     let text = text.trim_start_matches('\u{feff}');
     let is_content = |l: &str| !l.trim().is_empty() && !l.trim_start().starts_with('#');
@@ -322,6 +355,12 @@ mod tests {
         assert!(e(b"# only a comment\n\n").contains("empty"));
         assert!(e(b"station,x,y,elev,elev\nA,1,2,3,4\n").contains("'elev' twice"));
         assert!(e(b"\xff\xfes\x00t\x00").contains("UTF-16"));
+        let utf16: Vec<u8> = "station,x,y,elev\nA,1,2,3\n"
+            .encode_utf16()
+            .flat_map(|u| u.to_le_bytes())
+            .collect();
+        assert!(e(&utf16).contains("UTF-16 text (without a byte-order mark)"));
+        assert!(e(b"\x00\x01\x02\x03station").contains("not text"));
         assert!(e(b"station,x,y,elev\nM\xfcller,1,2,3\n").contains("not UTF-8"));
         let latin = TextOptions {
             encoding: Encoding::Latin1,

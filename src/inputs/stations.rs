@@ -431,12 +431,15 @@ pub fn read_stations(
 
 /// Converts station coordinates from `from` (EPSG code, PROJ string or WKT) to the DEM's CRS.
 fn transform_stations(stations: &mut [Station], from: &str, to_wkt: &str) -> Result<(), String> {
+    // The CRS as messages name it (a WKT definition can be long).
+    let name = cut(from, ECHO_MAX);
+    let (from, definition) = (name.as_str(), from);
     if to_wkt.is_empty() {
         return Err(format!(
             "the stations are in {from} but the DEM has no CRS to convert them to; give the DEM a CRS"
         ));
     }
-    let transform = Transform::between(from, to_wkt, from, "the DEM's CRS").map_err(|e| {
+    let transform = Transform::between(definition, to_wkt, from, "the DEM's CRS").map_err(|e| {
         format!(
             "{e}; give an EPSG code such as EPSG:32633 or a valid PROJ string with --stations-crs"
         )
