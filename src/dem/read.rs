@@ -100,11 +100,14 @@ pub enum DemError {
     VerticalUnit { path: String, unit: String },
     #[error("{path}: every cell is nodata; give a DEM with elevation values")]
     AllNodata { path: String },
-    #[error("{path}: {count} cell(s) hold {value}, which is no height on the Earth but the usual mark of missing data, and the file declares no nodata value; give --dem-nodata {value} if these cells have no data, or fix the file")]
+    #[error("{path}: {count} cell(s) hold {value}, which is {what}, and the file declares no nodata value; give --dem-nodata {value} if these cells have no data, or fix the file")]
     Void {
         path: String,
-        value: f64,
+        /// The raw value as the file holds it (powers of ten when large).
+        value: String,
         count: usize,
+        /// `no height on the Earth but the usual mark of missing data`, or why else.
+        what: String,
     },
     #[error("{path}: reading the raster failed ({detail})")]
     Read { path: String, detail: String },
@@ -592,8 +595,22 @@ impl DemHeader {
             None => Ok(()),
             Some((value, count)) => Err(DemError::Void {
                 path: self.path.clone(),
-                value: value as f64,
+                // f32's shortest spelling (3.4e38 rather than 39 digits), which
+                // --dem-nodata reads back to the same value.
+                value: if value.abs() >= 1e7 {
+                    format!("{value:e}")
+                } else {
+                    format!("{value}")
+                },
                 count,
+                what: if USUAL_VOID_MARKS.contains(&(value as f64)) {
+                    "no height on the Earth but the usual mark of missing data".into()
+                } else {
+                    format!(
+                        "no height on the Earth ({} to {} m)",
+                        DEM_HEIGHT_RANGE_M.0, DEM_HEIGHT_RANGE_M.1
+                    )
+                },
             }),
         }
     }
