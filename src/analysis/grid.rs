@@ -101,11 +101,18 @@ fn fitting_spacing(extent: (f64, f64, f64, f64), spacing: f64) -> Option<(f64, f
     None
 }
 
-/// A node count in words: digits up to a billion, else in powers of ten.
+/// A node count along an axis: digits up to a billion, else in powers of ten.
 fn count_text(n: f64) -> String {
     if n < 1e9 {
         format!("{n:.0}")
-    } else if n.is_finite() {
+    } else {
+        total_text(n)
+    }
+}
+
+/// A grid's node count, in powers of ten.
+fn total_text(n: f64) -> String {
+    if n.is_finite() {
         format!("{n:.2e}")
     } else {
         "more than 1e308".to_string()
@@ -134,7 +141,7 @@ pub fn node_grid(extent: (f64, f64, f64, f64), spacing: f64) -> anyhow::Result<N
             Some((better, n)) => format!(
                 "give --spacing {} ({} nodes) or a smaller --extent",
                 format_length(better),
-                count_text(n)
+                total_text(n)
             ),
             None => "give a much smaller --extent".to_string(),
         };
@@ -148,7 +155,7 @@ pub fn node_grid(extent: (f64, f64, f64, f64), spacing: f64) -> anyhow::Result<N
             "a grid of {} x {} = {} nodes at {} spacing {memory}is over the limit of {:.0e} nodes; {fix}",
             count_text(nx),
             count_text(ny),
-            count_text(nodes),
+            total_text(nodes),
             format_length(spacing),
             MAX_NODES,
         );
@@ -268,6 +275,6 @@ mod tests {
         let e = node_grid((0.0, 0.0, 10_000.0, 10_000.0), 1e-300)
             .unwrap_err()
             .to_string();
-        assert!(e.contains("--spacing 1m (100020001 nodes)"), "{e}");
+        assert!(e.contains("--spacing 1m (1.00e8 nodes)"), "{e}");
     }
 }
