@@ -50,11 +50,24 @@ pub fn warn_sector_rings(
 /// The bookkeeping of a run: the files it reads and writes checked against each other
 /// before any work, the inputs hashed while it runs, its warnings, and its record
 /// written beside its output at the end.
+///
+/// The outputs written while it is open are held back and moved into place together,
+/// after the record, by [`RunBook::finish`]; dropped unfinished (a refusal), it removes
+/// them.
 pub struct RunBook {
-    record: crate::output::record::RecordStart,
+    /// Taken by [`RunBook::finish`].
+    record: Option<crate::output::record::RecordStart>,
     record_path: Option<std::path::PathBuf>,
     outputs: Vec<std::path::PathBuf>,
     warnings: Vec<String>,
+}
+
+impl Drop for RunBook {
+    fn drop(&mut self) {
+        if self.record.is_some() {
+            crate::output::files::discard_held();
+        }
+    }
 }
 
 /// The option that names an input file of each role.
@@ -94,8 +107,9 @@ impl RunBook {
             roles.output(p, "the run record");
         }
         roles.check()?;
+        crate::output::files::hold_commits();
         Ok(RunBook {
-            record: RecordStart::start(command, &files),
+            record: Some(RecordStart::start(command, &files)),
             record_path,
             outputs: outputs
                 .iter()
@@ -112,26 +126,37 @@ impl RunBook {
         self.warnings.push(warning);
     }
 
-    /// Writes the record (when there is a place for it).
+    /// Writes the record (when there is a place for it), then moves every output of the
+    /// run into place.
     pub fn finish(
-        self,
+        mut self,
         settings: Option<crate::output::record::SettingsRecord>,
         inputs: &Inputs,
         threads: usize,
     ) -> anyhow::Result<()> {
-        let Some(path) = self.record_path else {
-            return Ok(());
-        };
-        let outputs: Vec<&std::path::Path> = self.outputs.iter().map(|p| p.as_path()).collect();
-        let record = self.record.finish(
-            settings,
-            crate::output::record::dem_records(&inputs.dems),
-            inputs.stations.as_ref().map(|t| t.stations.len()),
-            &outputs,
-            threads,
-            &inputs.notes,
-            &self.warnings,
-        )?;
-        record.write(&path)
+        let start = self.record.take().expect("a run book is finished once");
+        let written = (|| {
+            let Some(path) = &self.record_path else {
+                return Ok(());
+            };
+            let outputs: Vec<&std::path::Path> = self.outputs.iter().map(|p| p.as_path()).collect();
+            let record = start.finish(
+                settings,
+                crate::output::record::dem_records(&inputs.dems),
+                inputs.stations.as_ref().map(|t| t.stations.len()),
+                &outputs,
+                threads,
+                &inputs.notes,
+                &self.warnings,
+            )?;
+            record.write(path)
+        })();
+        match written {
+            Ok(()) => crate::output::files::commit_held(),
+            Err(e) => {
+                crate::output::files::discard_held();
+                Err(e)
+            }
+        }
     }
 }

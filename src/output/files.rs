@@ -5,11 +5,17 @@
 //! A temporary file is named after what it will become (`.tc.csv.1a2b3c.ringsum-partial`
 //! for `tc.csv`). It is removed when the write fails, when the program is interrupted
 //! (Ctrl-C, SIGTERM: see [`install_interrupt_handler`]), or when it is dropped unfinished.
+//!
+//! A run with several outputs (a table, a summary, plots, a grid, the run record) holds
+//! each finished file back ([`hold_commits`]) and moves them all into place together at
+//! its end ([`commit_held`]), so that a refusal or an interrupt while one output is being
+//! made leaves none of the others behind.
 
 use anyhow::{bail, Context};
 use std::collections::BTreeSet;
 use std::io::Write;
 use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::Mutex;
 
 /// Suffix of every temporary file.
@@ -17,6 +23,41 @@ pub const PARTIAL_SUFFIX: &str = ".ringsum-partial";
 
 /// The temporary files being written now (removed on an interrupt).
 static PARTIALS: Mutex<BTreeSet<PathBuf>> = Mutex::new(BTreeSet::new());
+
+/// Whether finished files wait for [`commit_held`] (see [`hold_commits`]).
+static HOLDING: AtomicBool = AtomicBool::new(false);
+
+/// Finished files waiting to be moved into place (still temporary files, removed on an
+/// interrupt).
+static HELD: Mutex<Vec<Partial>> = Mutex::new(Vec::new());
+
+/// From now on, [`Partial::commit`] holds each finished file back until
+/// [`commit_held`] (or [`discard_held`]).
+pub fn hold_commits() {
+    HOLDING.store(true, Ordering::SeqCst);
+}
+
+fn take_held() -> Vec<Partial> {
+    HOLDING.store(false, Ordering::SeqCst);
+    match HELD.lock() {
+        Ok(mut guard) => std::mem::take(&mut *guard),
+        Err(poisoned) => std::mem::take(&mut *poisoned.into_inner()),
+    }
+}
+
+/// Moves every held file into place, in the order they were finished, and stops holding.
+pub fn commit_held() -> anyhow::Result<()> {
+    for partial in take_held() {
+        partial.persist()?;
+    }
+    Ok(())
+}
+
+/// Removes every held file and stops holding (a run that failed after some outputs were
+/// finished).
+pub fn discard_held() {
+    drop(take_held());
+}
 
 /// Removes every temporary file being written and exits with the status of a signal
 /// (130 for Ctrl-C, as shells report it). Installed once by the binary.
@@ -216,8 +257,21 @@ impl Partial {
             .with_context(|| format!("{}: writing failed", path.display()))
     }
 
-    /// Renames the finished file into place, as an ordinary (0644) file.
-    pub fn commit(mut self) -> anyhow::Result<()> {
+    /// Renames the finished file into place, as an ordinary (0644) file; while commits
+    /// are held ([`hold_commits`]), at [`commit_held`].
+    pub fn commit(self) -> anyhow::Result<()> {
+        if HOLDING.load(Ordering::SeqCst) {
+            match HELD.lock() {
+                Ok(mut guard) => guard.push(self),
+                Err(poisoned) => poisoned.into_inner().push(self),
+            }
+            return Ok(());
+        }
+        self.persist()
+    }
+
+    /// Renames the finished file into place now.
+    fn persist(mut self) -> anyhow::Result<()> {
         #[cfg(unix)]
         {
             use std::os::unix::fs::PermissionsExt;
@@ -366,6 +420,29 @@ mod tests {
         roles.output(&dir.path().join("c.csv"), "--out");
         roles.output(&dir.path().join("./c.csv"), "--station-summary");
         assert!(roles.check().unwrap_err().to_string().contains("same file"));
+    }
+
+    #[test]
+    fn held_files_appear_together_or_not_at_all() {
+        let dir = tempfile::tempdir().unwrap();
+        let (a, b) = (dir.path().join("a.csv"), dir.path().join("b.csv"));
+        hold_commits();
+        write_atomically(&a, b"a").unwrap();
+        write_atomically(&b, b"b").unwrap();
+        assert!(!a.exists() && !b.exists(), "held back");
+        assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 2);
+        commit_held().unwrap();
+        assert_eq!(std::fs::read(&a).unwrap(), b"a");
+        assert_eq!(std::fs::read(&b).unwrap(), b"b");
+        let c = dir.path().join("c.csv");
+        hold_commits();
+        write_atomically(&c, b"c").unwrap();
+        discard_held();
+        assert!(!c.exists());
+        assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 2);
+        // Not holding: at once.
+        write_atomically(&c, b"c").unwrap();
+        assert!(c.exists());
     }
 
     #[test]
