@@ -304,10 +304,15 @@ pub fn read_stations(
         return Err(missing("the station height", ELEV_NAMES, "--elev-col"));
     }
     let (x_col, y_col, input_crs) = match &raw.points {
+        // A layer in the DEM's own CRS needs no conversion (and gets no x_dem, y_dem),
+        // as a text file without --stations-crs.
         Some(_) => (
             None,
             None,
-            stations_crs.map(str::to_string).or(raw.crs.clone()),
+            stations_crs.map(str::to_string).or(raw
+                .crs
+                .clone()
+                .filter(|crs| !crate::dem::crs::same_crs(crs, dem_crs_wkt))),
         ),
         None => {
             let mut x_col = locate(&columns.x, X_NAMES, "--x-col")?;
