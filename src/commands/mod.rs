@@ -104,7 +104,12 @@ impl RunBook {
         }
         let record_path = record_path(main_output, run.record.as_deref());
         if let Some(p) = &record_path {
-            roles.output(p, "the run record");
+            let option = if run.record.is_some() {
+                "--record"
+            } else {
+                "the run record"
+            };
+            roles.output(p, option);
         }
         roles.check()?;
         crate::output::files::hold_commits();

@@ -3,7 +3,7 @@
 //! setting after defaults, the zone plan, every input file with its size, SHA-256 and
 //! CRS (DEMs with their extent, cell size, nodata and vertical unit), the number of
 //! stations, the times, the threads, and every note and warning. With it a table handed
-//! on can be reproduced and checked; `merge` checks shards against each other with it.
+//! on can be reproduced and checked.
 //!
 //! The format is documented by the field names and this module; numbers are SI (m,
 //! kg/m3), times RFC 3339 in UTC.
