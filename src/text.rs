@@ -61,7 +61,7 @@ pub fn bytes_text(bytes: f64) -> String {
     } else if bytes < 1e15 {
         format!("{:.1} TB", bytes / 1e12)
     } else {
-        format!("{:.1e} TB", bytes / 1e12)
+        format!("{bytes:.1e} bytes")
     }
 }
 

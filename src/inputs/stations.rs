@@ -162,7 +162,7 @@ impl StationTable {
                 path: self.path.display().to_string(),
                 name: cut(name, ECHO_MAX),
                 option,
-                found: cut(&self.headers.join(", "), 200),
+                found: columns_found(&self.headers),
             }
         })?;
         self.looked_up.add(col);
@@ -208,6 +208,13 @@ impl StationTable {
         )
         .map(Some)
     }
+}
+
+/// The header's columns as a message lists them: each name cut to [`ECHO_MAX`], the
+/// list to 200 characters.
+fn columns_found(headers: &[String]) -> String {
+    let names: Vec<String> = headers.iter().map(|h| cut(h, ECHO_MAX)).collect();
+    cut(&names.join(", "), 200)
 }
 
 fn find_column(headers: &[String], names: &[&str]) -> Option<usize> {
@@ -267,7 +274,7 @@ pub fn read_stations(
         detail,
     })?;
     let headers = raw.headers.clone();
-    let found = cut(&headers.join(", "), 200);
+    let found = columns_found(&headers);
     let locate = |given: &Option<String>,
                   names: &[&str],
                   option: &'static str|
