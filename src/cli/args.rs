@@ -328,8 +328,9 @@ pub struct CorrectArgs {
     #[command(flatten)]
     pub run: RunArgs,
 
-    /// Output table: a .csv path, or - for standard output. Written to a temporary file
-    /// and renamed, so a failed run leaves nothing behind.
+    /// Output table: a .csv path, a .gpkg (GeoPackage point layer in the stations' CRS)
+    /// or .geojson (points in longitude and latitude), or - for CSV on standard output.
+    /// Written to a temporary file and renamed, so a failed run leaves nothing behind.
     #[arg(long, value_name = "PATH", help_heading = "Output")]
     pub out: PathBuf,
 }
@@ -393,12 +394,13 @@ pub struct SweepArgs {
     #[arg(long, value_name = "PATH", help_heading = "Sweep")]
     pub compare_dem: Vec<PathBuf>,
 
-    /// Output table: a .csv path, or - for standard output.
+    /// Output table: a .csv, .gpkg or .geojson path, or - for CSV on standard output.
     #[arg(long, value_name = "PATH", help_heading = "Output")]
     pub out: PathBuf,
 
     /// One row per station as well: final TC, the radii where 95% and 99% of it are
-    /// reached, and the TC per density and per DEM at the outer radius (.csv).
+    /// reached, and the TC per density and per DEM at the outer radius (.csv, .gpkg or
+    /// .geojson).
     #[arg(long, value_name = "PATH", help_heading = "Output")]
     pub station_summary: Option<PathBuf>,
 
@@ -423,8 +425,8 @@ pub struct AuditArgs {
     #[command(flatten)]
     pub run: RunArgs,
 
-    /// Per-station report: a .csv path, or - for standard output (the summary then goes
-    /// to standard error).
+    /// Per-station report: a .csv, .gpkg or .geojson path, or - for CSV on standard
+    /// output (the summary then goes to standard error).
     #[arg(long, value_name = "PATH", help_heading = "Output")]
     pub out: PathBuf,
 

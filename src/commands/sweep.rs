@@ -397,13 +397,14 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
         &tc,
         &target,
     );
-    match target {
-        TableTarget::Stdout => {
-            if !run.quiet {
-                eprint!("{text}");
-            }
+    // Standard output holds a table when one goes there: the summary then goes to
+    // standard error.
+    if target == TableTarget::Stdout || summary_target == Some(TableTarget::Stdout) {
+        if !run.quiet {
+            eprint!("{text}");
         }
-        _ => print!("{text}"),
+    } else {
+        print!("{text}");
     }
     Ok(())
 }
