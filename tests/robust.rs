@@ -245,6 +245,33 @@ fn sigint_while_a_plot_is_drawn_leaves_neither_it_nor_the_finished_table() {
     interrupt(&dir, &args, "INT", drawing_a_plot);
 }
 
+#[test]
+fn a_station_summary_on_standard_output_is_the_table_alone() {
+    let dir = TestDir::new();
+    std::fs::copy(fixture("jacksboro_stations.csv"), dir.join("stations.csv")).unwrap();
+    dir.make_dir("out");
+    let output = ringsum(&dir)
+        .arg("sweep")
+        .arg("--dem")
+        .arg(fixture("jacksboro_utm.tif"))
+        .args(["--stations", "stations.csv", "--outer-radius", "2km"])
+        .args(["--out", "out/sweep.csv", "--station-summary", "-"])
+        .assert()
+        .success()
+        .get_output()
+        .clone();
+    // Every line of standard output is a row of the summary (the parser is strict).
+    let summary = Csv::parse(&String::from_utf8(output.stdout).unwrap());
+    assert_eq!(summary.headers[..2], ["station", "tc_mgal"]);
+    assert_eq!(summary.rows.len(), 8);
+    // The words about the run go to standard error.
+    let stderr = String::from_utf8(output.stderr).unwrap();
+    assert!(
+        stderr.starts_with("ringsum sweep: 8 station(s)"),
+        "{stderr}"
+    );
+}
+
 // ---------------------------------------------------------------------------------------
 // Station files and DEMs that are read
 // ---------------------------------------------------------------------------------------
