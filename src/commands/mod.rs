@@ -78,6 +78,7 @@ fn input_option(role: &str) -> &'static str {
         "density_raster" => "--density-raster",
         "water_surface" => "--water-surface",
         "zone_plan" => "--zones",
+        "compare_dem" => "--compare-dem",
         _ => "an input",
     }
 }
@@ -93,8 +94,26 @@ impl RunBook {
         main_output: Option<&std::path::Path>,
         outputs: &[(&std::path::Path, &str)],
     ) -> anyhow::Result<RunBook> {
+        RunBook::start_with(command, tc, run, main_output, outputs, &[])
+    }
+
+    /// [`RunBook::start`] with inputs beyond the terrain correction's (`(role, path)`,
+    /// e.g. sweep's `compare_dem`).
+    pub fn start_with(
+        command: &str,
+        tc: &crate::config::TcSettings,
+        run: &crate::config::RunSettings,
+        main_output: Option<&std::path::Path>,
+        outputs: &[(&std::path::Path, &str)],
+        more_inputs: &[(&str, &std::path::Path)],
+    ) -> anyhow::Result<RunBook> {
         use crate::output::record::{input_files, record_path, RecordStart};
-        let files = input_files(tc);
+        let mut files = input_files(tc);
+        files.extend(
+            more_inputs
+                .iter()
+                .map(|(role, path)| (role.to_string(), path.to_path_buf())),
+        );
         let mut roles = crate::output::files::FileRoles::default();
         for (role, path) in &files {
             roles.input(path, input_option(role));

@@ -186,7 +186,13 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
         outputs.push((p, "--station-summary"));
     }
     outputs.extend(args.plot.iter().map(|p| (p.as_path(), "--plot")));
-    let mut book = super::RunBook::start("sweep", &tc, &run, target.path(), &outputs)?;
+    let compare: Vec<(&str, &std::path::Path)> = args
+        .compare_dem
+        .iter()
+        .map(|p| ("compare_dem", p.as_path()))
+        .collect();
+    let mut book =
+        super::RunBook::start_with("sweep", &tc, &run, target.path(), &outputs, &compare)?;
 
     let opened = Opened::open(&tc)?;
     let finest_files = opened.dems.files()[0].clone();

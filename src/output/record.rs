@@ -24,7 +24,8 @@ pub const RECORD_SUFFIX: &str = ".run.json";
 /// One input file.
 #[derive(Debug, Clone, Serialize, PartialEq)]
 pub struct InputFile {
-    /// What the file is (dem, stations, density_raster, water_surface, zone_plan).
+    /// What the file is (dem, stations, density_raster, water_surface, zone_plan,
+    /// compare_dem).
     pub role: String,
     /// The path as given.
     pub path: String,
