@@ -714,3 +714,29 @@ fn standard_output_gets_a_record_only_when_asked() {
         sha256(&dir.join("stations.csv"))
     );
 }
+
+#[test]
+fn a_sweep_record_lists_the_dems_it_compares_with() {
+    let dir = TestDir::new();
+    std::fs::copy(fixture("jacksboro_utm.tif"), dir.join("dem.tif")).unwrap();
+    std::fs::copy(fixture("jacksboro_utm.tif"), dir.join("other.tif")).unwrap();
+    std::fs::copy(fixture("jacksboro_stations.csv"), dir.join("stations.csv")).unwrap();
+    dir.make_dir("out");
+    ringsum(&dir)
+        .args(["sweep", "--dem", "dem.tif", "--compare-dem", "other.tif"])
+        .args(["--stations", "stations.csv", "--outer-radius", "2km"])
+        .args(["--quiet", "--out", "out/sweep.csv"])
+        .assert()
+        .success();
+    let record = read_json(&dir.join("out/sweep.csv.run.json"));
+    let inputs = record["inputs"].as_array().unwrap();
+    let compared = inputs
+        .iter()
+        .find(|i| i["role"] == "compare_dem")
+        .expect("the compared DEM is an input");
+    assert_eq!(compared["path"], "other.tif");
+    assert_eq!(
+        compared["sha256"].as_str().unwrap(),
+        sha256(&dir.join("other.tif"))
+    );
+}
