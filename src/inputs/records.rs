@@ -185,6 +185,7 @@ fn read_text(path: &Path, options: &TextOptions) -> Result<Records, String> {
         }
         rows.push((line, record.iter().map(str::to_string).collect()));
     }
+    let (headers, rows) = drop_unnamed_columns(headers, rows)?;
     Ok(Records {
         headers,
         rows,
@@ -192,6 +193,48 @@ fn read_text(path: &Path, options: &TextOptions) -> Result<Records, String> {
         crs: None,
         row_word: "line",
     })
+}
+
+/// Leaves out the columns without a name whose every field is empty (the separators a
+/// spreadsheet puts at the ends of lines); refuses one that holds a value.
+#[allow(clippy::type_complexity)]
+fn drop_unnamed_columns(
+    headers: Vec<String>,
+    rows: Vec<(u64, Vec<String>)>,
+) -> Result<(Vec<String>, Vec<(u64, Vec<String>)>), String> {
+    let unnamed: Vec<usize> = (0..headers.len())
+        .filter(|&c| headers[c].is_empty())
+        .collect();
+    if unnamed.is_empty() {
+        return Ok((headers, rows));
+    }
+    for (line, fields) in &rows {
+        if let Some(&c) = unnamed.iter().find(|&&c| !fields[c].trim().is_empty()) {
+            return Err(format!(
+                "line {line}: column {} has no name in the header but holds '{}'; name it in the header",
+                c + 1,
+                cut(fields[c].trim(), ECHO_MAX)
+            ));
+        }
+    }
+    let keep = |c: &usize| !unnamed.contains(c);
+    let headers = (0..headers.len())
+        .filter(keep)
+        .map(|c| headers[c].clone())
+        .collect();
+    let rows = rows
+        .into_iter()
+        .map(|(line, fields)| {
+            (
+                line,
+                (0..fields.len())
+                    .filter(keep)
+                    .map(|c| fields[c].clone())
+                    .collect(),
+            )
+        })
+        .collect();
+    Ok((headers, rows))
 }
 
 /// The line numbers of a text: where each line starts.
@@ -226,7 +269,7 @@ impl<'a> LineIndex<'a> {
     }
 }
 
-/// Refuses an empty header name and a name given twice.
+/// Refuses a header of one column and a name given twice.
 fn check_headers(headers: &[String], delimiter: Delimiter) -> Result<(), String> {
     if headers.len() < 2 {
         return Err(format!(
@@ -236,6 +279,10 @@ fn check_headers(headers: &[String], delimiter: Delimiter) -> Result<(), String>
         ));
     }
     for (i, h) in headers.iter().enumerate() {
+        // Unnamed columns are left out when empty (see `drop_unnamed_columns`).
+        if h.is_empty() {
+            continue;
+        }
         if let Some(j) = headers[..i].iter().position(|g| g.eq_ignore_ascii_case(h)) {
             return Err(format!(
                 "the header names the column '{}' twice (columns {} and {}); rename one",
@@ -369,5 +416,15 @@ mod tests {
         let r = text(b"station,x,y,elev\nM\xfcller,1,2,3\n", latin).unwrap();
         assert_eq!(r.rows[0].1[0], "M\u{fc}ller");
         assert!(e(b"station,x,y,elev\nA,1,2\n").contains("3 fields where the header has 4"));
+        // A spreadsheet's separators at the ends of lines.
+        let r = text(
+            b"station,x,y,elev,,\nA,1,2,3,,\nB,4,5,6,, \n",
+            TextOptions::default(),
+        )
+        .unwrap();
+        assert_eq!(r.headers, ["station", "x", "y", "elev"]);
+        assert_eq!(r.rows[1].1, ["B", "4", "5", "6"]);
+        let e = e(b"station,x,y,elev,\nA,1,2,3,\nB,4,5,6,oops\n");
+        assert!(e.starts_with("line 3: column 5 has no name"), "{e}");
     }
 }
