@@ -57,6 +57,7 @@ refusals! {
     a_utf16_station_file_without_bom => "utf-16-without-bom",
     a_latin1_station_file_without_the_option => "latin-1",
     a_header_naming_a_column_twice => "duplicate-header",
+    an_unnamed_column_holding_values => "unnamed-column-with-values",
     a_height_of_1e308_names_its_line => "height-1e308",
     a_bad_value_after_comments_names_its_own_line => "bad-value-after-comments",
     a_raster_given_as_stations => "raster-as-stations",
@@ -342,6 +343,19 @@ fn a_space_separated_file_gives_the_csv_table() {
     same_table_as_csv("   ", &[]);
     // And when the separator is given rather than found.
     same_table_as_csv(" ", &["--delimiter", "space"]);
+}
+
+#[test]
+fn a_spreadsheets_separators_at_line_ends_are_left_out() {
+    let dir = TestDir::new();
+    let plain = stations_joined(",");
+    let padded: String = plain.lines().map(|l| format!("{l},,\n")).collect();
+    dir.write_text("plain.csv", &plain);
+    dir.write_text("padded.csv", &padded);
+    assert_eq!(
+        jacksboro_table(&dir, "padded.csv", &[]),
+        jacksboro_table(&dir, "plain.csv", &[])
+    );
 }
 
 #[test]

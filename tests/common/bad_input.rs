@@ -618,6 +618,20 @@ pub const CASES: &[BadInput] = &[
         status: 1,
     },
     BadInput {
+        name: "unnamed-column-with-values",
+        what: "a column without a name in the header that holds values",
+        setup: |d| {
+            base(d);
+            d.write_text(
+                "unnamed.csv",
+                "station,x,y,elev,\nJ01,743097.34,4049213.83,573.90,\nJ02,746293.50,4047803.25,515.24,checked\n",
+            );
+            correct_stations("unnamed.csv", &[])
+        },
+        keys: &["unnamed.csv", "line 3", "column 5 has no name", "'checked'"],
+        status: 1,
+    },
+    BadInput {
         name: "megabyte-header",
         what: "a header line of 1 MB (without a height column)",
         setup: |d| {
