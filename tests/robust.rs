@@ -45,6 +45,7 @@ refusals! {
     the_default_record_is_an_input => "default-record-is-input",
     out_is_a_folder => "out-is-a-folder",
     out_folder_does_not_exist => "out-folder-missing",
+    out_folder_takes_no_new_files => "out-folder-takes-no-files",
     outer_radius_of_1e30_km => "outer-radius-1e30km",
     outer_radius_inside_the_inner_zone => "outer-radius-inside-inner-zone",
     a_hundred_thousand_threads => "threads-100000",

@@ -426,6 +426,16 @@ pub const CASES: &[BadInput] = &[
         keys: &["the folder missing does not exist", "create it first"],
         status: 1,
     },
+    BadInput {
+        name: "out-folder-takes-no-files",
+        what: "`--out` in a folder that takes no new files (`/proc`)",
+        setup: |d| {
+            base(d);
+            correct(&["--out", "/proc/tc.csv"])
+        },
+        keys: &["--out /proc/tc.csv", "the folder /proc does not take new files"],
+        status: 1,
+    },
     // Sizes no run can take.
     BadInput {
         name: "outer-radius-1e30km",
