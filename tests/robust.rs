@@ -505,6 +505,49 @@ fn a_geopackage_reads_back_as_the_csv_in_the_stations_crs() {
 }
 
 #[test]
+fn a_geopackage_of_stations_given_in_lon_lat_is_in_lon_lat() {
+    let dir = TestDir::new();
+    let utm = Csv::read(&fixture("jacksboro_stations.csv"));
+    // The stations' lon, lat (from a first run), as the station file.
+    let first = Csv::parse(&jacksboro_table(
+        &dir,
+        fixture("jacksboro_stations.csv").to_str().unwrap(),
+        &[],
+    ));
+    let mut text = String::from("station,lon,lat,elev\n");
+    for i in 0..first.rows.len() {
+        text.push_str(&format!(
+            "{},{},{},{}\n",
+            first.get(i, "station"),
+            first.get(i, "lon"),
+            first.get(i, "lat"),
+            utm.get(i, "elev")
+        ));
+    }
+    dir.write_text("lonlat.csv", &text);
+    let out = dir.make_dir("out");
+    for target in ["tc.gpkg", "tc.csv"] {
+        ringsum(&dir)
+            .arg("correct")
+            .arg("--dem")
+            .arg(fixture("jacksboro_utm.tif"))
+            .args(["--stations", "lonlat.csv", "--outer-radius", "2km"])
+            .args(["--quiet", "--out"])
+            .arg(out.join(target))
+            .assert()
+            .success();
+    }
+    let csv = Csv::read(&out.join("tc.csv"));
+    assert!(csv.headers.iter().any(|h| h == "x_dem"));
+    // The layer is in the stations' CRS (EPSG:4326), not the DEM's.
+    let points = check_layer(&out.join("tc.gpkg"), &csv, 4326);
+    for (i, (x, y)) in points.into_iter().enumerate() {
+        assert_eq!((x, y), (csv.num(i, "x"), csv.num(i, "y")), "row {i}");
+        assert_close!(csv.num(i, "x_dem"), utm.num(i, "x"), 2e-3, "row {i}");
+    }
+}
+
+#[test]
 fn a_geojson_reads_back_as_the_csv_in_lon_lat() {
     let dir = TestDir::new();
     let csv = gis_run(&dir, "tc.geojson");
