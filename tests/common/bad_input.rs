@@ -433,7 +433,10 @@ pub const CASES: &[BadInput] = &[
             base(d);
             correct(&["--out", "/proc/tc.csv"])
         },
-        keys: &["--out /proc/tc.csv", "the folder /proc does not take new files"],
+        keys: &[
+            "--out /proc/tc.csv",
+            "the folder /proc does not take new files",
+        ],
         status: 1,
     },
     // Sizes no run can take.
