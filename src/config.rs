@@ -34,7 +34,10 @@ pub enum ZonesChoice {
     Auto,
     Hammer,
     /// A plan file, read and checked.
-    File(ZonePlan),
+    File {
+        path: PathBuf,
+        plan: ZonePlan,
+    },
 }
 
 impl ZonesChoice {
@@ -43,7 +46,15 @@ impl ZonesChoice {
         match self {
             ZonesChoice::Auto => "auto".into(),
             ZonesChoice::Hammer => "hammer".into(),
-            ZonesChoice::File(p) => p.source.clone(),
+            ZonesChoice::File { path, .. } => path.display().to_string(),
+        }
+    }
+
+    /// The plan file, if the plan is one.
+    pub fn file(&self) -> Option<&Path> {
+        match self {
+            ZonesChoice::File { path, .. } => Some(path),
+            _ => None,
         }
     }
 }
@@ -57,10 +68,65 @@ pub struct ColumnChoice {
     pub elev: Option<String>,
 }
 
+/// How a text file's fields are separated.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Delimiter {
+    Comma,
+    Semicolon,
+    Tab,
+    /// Runs of spaces (or tabs).
+    Spaces,
+}
+
+impl Delimiter {
+    /// Parses `--delimiter`: `,` `;` `tab` `space` (or their names).
+    pub fn parse(text: &str) -> Result<Delimiter, String> {
+        Ok(match text.trim().to_ascii_lowercase().as_str() {
+            "," | "comma" => Delimiter::Comma,
+            ";" | "semicolon" => Delimiter::Semicolon,
+            "tab" | "\\t" | "\t" => Delimiter::Tab,
+            "space" | "spaces" | " " | "whitespace" => Delimiter::Spaces,
+            _ => {
+                return Err(format!(
+                    "--delimiter {text}: give comma, semicolon, tab or space"
+                ))
+            }
+        })
+    }
+
+    pub fn name(self) -> &'static str {
+        match self {
+            Delimiter::Comma => "comma",
+            Delimiter::Semicolon => "semicolon",
+            Delimiter::Tab => "tab",
+            Delimiter::Spaces => "spaces",
+        }
+    }
+}
+
+/// How a text file's bytes are characters.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub enum Encoding {
+    #[default]
+    Utf8,
+    /// ISO 8859-1: every byte is the character of the same number.
+    Latin1,
+}
+
+/// How to read a text file of records.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct TextOptions {
+    /// `None`: found from the header line.
+    pub delimiter: Option<Delimiter>,
+    pub encoding: Encoding,
+}
+
 /// Where the stations come from.
 #[derive(Debug, Clone, PartialEq)]
 pub struct StationSource {
     pub path: PathBuf,
+    /// How a text station file is read.
+    pub text: TextOptions,
     /// CRS of the file's coordinates (`None`: the finest DEM's, or EPSG:4326 for lon/lat).
     pub crs: Option<String>,
     pub columns: ColumnChoice,
@@ -107,6 +173,8 @@ pub struct FieldInnerSettings {
 #[derive(Debug, Clone)]
 pub struct TcSettings {
     pub dems: Vec<PathBuf>,
+    /// `--dem-nodata`: the nodata value of DEMs that declare none.
+    pub dem_nodata: Option<f64>,
     pub stations: Option<StationSource>,
     pub engine: EngineConfig,
     pub zones: ZonesChoice,
@@ -117,13 +185,17 @@ pub struct TcSettings {
     pub water: Option<WaterSettings>,
     pub field_inner: Option<FieldInnerSettings>,
     pub allow_gaps: bool,
+    /// Whether the station file's own other columns are carried to the tables.
+    pub carry_station_columns: bool,
 }
 
-/// Parallelism and progress.
-#[derive(Debug, Clone, Copy, Default, PartialEq)]
+/// Parallelism, progress and the run record.
+#[derive(Debug, Clone, Default, PartialEq)]
 pub struct RunSettings {
     pub threads: Option<usize>,
     pub quiet: bool,
+    /// `--record PATH`: where the run record goes (else beside the output).
+    pub record: Option<PathBuf>,
 }
 
 /// Checked settings of the reduction chain (`correct` with observed gravity).
@@ -209,9 +281,25 @@ impl WaterSettings {
 }
 
 impl StationSource {
-    fn from_args(input: &InputArgs) -> Option<StationSource> {
-        input.stations.as_ref().map(|path| StationSource {
+    fn from_args(input: &InputArgs) -> anyhow::Result<Option<StationSource>> {
+        let delimiter = match &input.delimiter {
+            Some(text) => Some(Delimiter::parse(text).map_err(UsageError)?),
+            None => None,
+        };
+        let encoding = match input.encoding.as_deref() {
+            None => Encoding::Utf8,
+            Some(e) => match e.to_ascii_lowercase().replace('_', "-").as_str() {
+                "utf-8" | "utf8" => Encoding::Utf8,
+                "latin-1" | "latin1" | "iso-8859-1" => Encoding::Latin1,
+                _ => return usage(format!("--encoding {e}: give utf-8 or latin-1")),
+            },
+        };
+        Ok(input.stations.as_ref().map(|path| StationSource {
             path: path.clone(),
+            text: TextOptions {
+                delimiter,
+                encoding,
+            },
             crs: input.stations_crs.clone(),
             columns: ColumnChoice {
                 station: input.station_col.clone(),
@@ -219,7 +307,7 @@ impl StationSource {
                 y: input.y_col.clone(),
                 elev: input.elev_col.clone(),
             },
-        })
+        }))
     }
 }
 
@@ -261,7 +349,10 @@ fn zones_choice(text: &str) -> anyhow::Result<ZonesChoice> {
                     path.display()
                 );
             }
-            ZonesChoice::File(ZonePlan::from_file(path)?)
+            ZonesChoice::File {
+                path: path.to_path_buf(),
+                plan: ZonePlan::from_file(path)?,
+            }
         }
     })
 }
@@ -271,7 +362,7 @@ impl TcSettings {
     pub fn from_args(args: &TcArgs) -> anyhow::Result<TcSettings> {
         let engine = engine_config(&args.zones, &args.physics)?;
         let zones = zones_choice(&args.zones.zones)?;
-        if let ZonesChoice::File(plan) = &zones {
+        if let ZonesChoice::File { plan, .. } = &zones {
             plan.clone().fitted_to(engine.outer_radius_m)?;
         }
         let density_kg_m3 = check_density(args.physics.density, "--density")?;
@@ -324,9 +415,17 @@ impl TcSettings {
                 return usage("--dem needs a path");
             }
         }
+        if let Some(v) = args.input.dem_nodata {
+            if !v.is_finite() {
+                return usage(format!(
+                    "--dem-nodata {v}: give a finite value, e.g. -32768"
+                ));
+            }
+        }
         Ok(TcSettings {
             dems: args.input.dem.clone(),
-            stations: StationSource::from_args(&args.input),
+            dem_nodata: args.input.dem_nodata,
+            stations: StationSource::from_args(&args.input)?,
             engine,
             zones,
             density_kg_m3,
@@ -334,6 +433,7 @@ impl TcSettings {
             water,
             field_inner,
             allow_gaps: args.input.allow_gaps,
+            carry_station_columns: !args.input.drop_station_columns,
         })
     }
 
@@ -347,14 +447,28 @@ impl TcSettings {
         }
     }
 
-    /// The zone plan for a finest DEM of cell size `cell_m` (m).
+    /// The zone plan for a finest DEM of cell size `cell_m` (m); refuses an outer radius
+    /// inside the plan's inner zone.
     pub fn plan(&self, cell_m: f64) -> anyhow::Result<ZonePlan> {
         let outer = self.engine.outer_radius_m;
-        Ok(match &self.zones {
+        let plan = match &self.zones {
             ZonesChoice::Auto => ZonePlan::auto(cell_m, outer, &AutoSettings::default()),
             ZonesChoice::Hammer => ZonePlan::hammer(cell_m, outer),
-            ZonesChoice::File(plan) => plan.clone().fitted_to(outer)?,
-        })
+            ZonesChoice::File { plan, .. } => plan.clone().fitted_to(outer)?,
+        };
+        let inner = match plan.inner {
+            crate::zones::InnerZone::Cells { half_width } => (half_width as f64 + 0.5) * cell_m,
+            crate::zones::InnerZone::Disc { radius_m } => radius_m,
+        };
+        if outer < inner {
+            bail!(
+                "--outer-radius {}: the radius lies inside the inner zone ({} from the station on this DEM), which is integrated whole; give at least {}",
+                format_length(outer),
+                format_length(inner),
+                format_length(inner)
+            );
+        }
+        Ok(plan)
     }
 
     /// The densities in words, for summaries and plot titles.
@@ -368,12 +482,22 @@ impl TcSettings {
 }
 
 impl RunSettings {
-    /// Checks the thread count.
+    /// Checks the thread count and the record's path.
     pub fn from_args(args: &RunArgs) -> anyhow::Result<RunSettings> {
         crate::engine::run::check_threads(args.threads)?;
+        if let Some(p) = &args.record {
+            crate::output::files::check_extension(
+                p,
+                "--record",
+                &["json"],
+                "the run record is JSON; give a path ending in .json",
+            )?;
+            crate::output::files::check_writable(p, "--record")?;
+        }
         Ok(RunSettings {
             threads: args.threads,
             quiet: args.quiet,
+            record: args.record.clone(),
         })
     }
 }

@@ -15,14 +15,14 @@
 //! - [`engine`]: per-point integration over a set of DEMs, the block pyramid, and the
 //!   parallel runs (the only place that uses rayon).
 //! - [`reduce`]: the reduction chain's formulas (normal gravity, free-air, Bouguer).
-//! - [`synthetic`]: analytic test terrains.
+//! - [`synthetic`]: analytic test terrains; [`text`]: lists, numbers and sizes in words.
 //!
 //! Around it (the default feature `io`: GDAL, PROJ, the command line):
 //! - [`cli`] and [`config`]: the command line and its checked settings.
 //! - [`inputs`]: reading DEMs (any number, any CRS, tiles), stations, rasters, water.
 //! - [`compute`] and [`results`]: the engine step and its typed per-point results.
 //! - [`analysis`]: the arithmetic of sweep, audit and map.
-//! - [`output`]: tables, GeoTIFF grids and plots; [`text`] and [`progress`].
+//! - [`output`]: tables, GeoTIFF grids and plots; [`progress`], the progress bar.
 //! - [`commands`]: each command's wiring.
 
 pub mod dem;
@@ -30,6 +30,7 @@ pub mod engine;
 pub mod kernels;
 pub mod reduce;
 pub mod synthetic;
+pub mod text;
 pub mod units;
 pub mod zones;
 
@@ -53,5 +54,3 @@ pub mod output;
 pub mod progress;
 #[cfg(feature = "io")]
 pub mod results;
-#[cfg(feature = "io")]
-pub mod text;

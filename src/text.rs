@@ -10,6 +10,16 @@ pub fn list_some(items: &[String]) -> String {
     s
 }
 
+/// `text` cut to at most `max` characters, with `...` where it was cut (echoed values
+/// and library messages stay readable).
+pub fn cut(text: &str, max: usize) -> String {
+    if text.chars().count() <= max {
+        return text.to_string();
+    }
+    let kept: String = text.chars().take(max.saturating_sub(3)).collect();
+    format!("{kept}...")
+}
+
 /// A number with at most `decimals` decimals and no trailing zeros: `2670`, `2300.5`,
 /// `494324.08`.
 pub fn trimmed(value: f64, decimals: usize) -> String {
@@ -46,8 +56,12 @@ pub fn bytes_text(bytes: f64) -> String {
         format!("{:.0} kB", (bytes / 1e3).max(1.0))
     } else if bytes < 1e9 {
         format!("{:.1} MB", bytes / 1e6)
-    } else {
+    } else if bytes < 1e12 {
         format!("{:.1} GB", bytes / 1e9)
+    } else if bytes < 1e15 {
+        format!("{:.1} TB", bytes / 1e12)
+    } else {
+        format!("{bytes:.1e} bytes")
     }
 }
 
@@ -72,6 +86,8 @@ mod tests {
         assert_eq!(trimmed(2670.0, 3), "2670");
         assert_eq!(trimmed(-0.0000001, 3), "0");
         assert_eq!(number(2300.5), "2300.5");
+        assert_eq!(cut("abcdef", 5), "ab...");
+        assert_eq!(cut("abc", 5), "abc");
         assert_eq!(coverage_text(0.999999), "0.999999");
         assert_eq!(coverage_text(0.65), "0.6500");
         assert_eq!(

@@ -53,7 +53,13 @@ pub fn parse_length_m(text: &str) -> Result<f64, String> {
 
 /// Formats a length in metres the way the command line accepts it back (`12.5km`, `300m`).
 pub fn format_length(metres: f64) -> String {
-    if metres >= 1000.0 {
+    // Lengths no survey has (below a millimetre, beyond a million kilometres) in powers
+    // of ten, which parse back.
+    if metres > 0.0 && metres < 1e-3 {
+        format!("{metres:.3e}m")
+    } else if metres >= 1e9 {
+        format!("{:.3e}km", metres / 1000.0)
+    } else if metres >= 1000.0 {
         let km = metres / 1000.0;
         format!("{}km", trim_float(km))
     } else {
@@ -87,6 +93,12 @@ mod tests {
         assert_eq!(format_length(166_735.0), "166.735km");
         assert_eq!(format_length(10_000.0), "10km");
         assert_eq!(format_length(53.3), "53.3m");
+        assert_eq!(format_length(1e-300), "1.000e-300m");
+        assert_eq!(format_length(1.5e30), "1.500e27km");
+        for v in [1e-300, 2.5e-4, 1.5e30, 7e12] {
+            let back = parse_length_m(&format_length(v)).unwrap();
+            assert!((back - v).abs() <= 1e-3 * v, "{v}: {}", format_length(v));
+        }
     }
 
     #[test]

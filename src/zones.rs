@@ -213,6 +213,10 @@ pub fn hammer_zone_radii(outer_m: f64) -> Vec<(String, f64, f64)> {
 /// The international foot, m.
 pub const FOOT_M: f64 = 0.3048;
 
+/// Most compartments a sector ring may have: 3600, a tenth of a degree each (our bound;
+/// finer rings are better integrated as blocks).
+pub const MAX_COMPARTMENTS: usize = 3600;
+
 /// Compartments of a ring from `r1` to `r2` so that the arc at mid-radius is about the
 /// ring's width: `n = pi (r1 + r2) / (r2 - r1)`, at least 4.
 pub fn compartments_for(r1: f64, r2: f64) -> usize {
@@ -577,6 +581,9 @@ impl ZonePlan {
                         .ok_or_else(|| bad(format!("ring {number} ({name}): compartments must be a whole number")))?;
                     if n <= 0 {
                         return Err(bad(format!("ring {number} ({name}): compartments must be at least 1, not {n}")));
+                    }
+                    if n > MAX_COMPARTMENTS as i64 {
+                        return Err(bad(format!("ring {number} ({name}): {n} compartments is more than the {MAX_COMPARTMENTS} accepted (a compartment of a tenth of a degree); use a blocks ring for finer detail")));
                     }
                     RingMethod::Sectors { compartments: n as usize }
                 }

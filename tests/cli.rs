@@ -9,10 +9,12 @@ use ringsum::dem::Dem;
 use std::path::{Path, PathBuf};
 
 /// Columns of the `correct` table when the stations are in the DEM's CRS.
-const COLUMNS: [&str; 12] = [
+const COLUMNS: [&str; 14] = [
     "station",
     "x",
     "y",
+    "lon",
+    "lat",
     "elev_m",
     "dem_elev_m",
     "elev_minus_dem_m",
@@ -114,8 +116,8 @@ fn good_run_writes_the_documented_table() {
         !stderr.contains('\r') && !stderr.contains("ETA"),
         "{stderr:?}"
     );
-    // Only the table in the output folder, no temporary file left.
-    assert_eq!(entries(&out_dir), ["tc.csv"]);
+    // Only the table and its run record in the output folder, no temporary file left.
+    assert_eq!(entries(&out_dir), ["tc.csv", "tc.csv.run.json"]);
 
     let table = Csv::read(&out);
     assert_eq!(table.headers, COLUMNS);
@@ -316,6 +318,12 @@ fn stations_in_lon_lat_give_the_same_correction() {
             // a millimetre; x_dem, y_dem have 3 decimals).
             assert_close!(table.num(i, "x_dem"), reference.num(i, "x"), 1e-3, "{id} x");
             assert_close!(table.num(i, "y_dem"), reference.num(i, "y"), 1e-3, "{id} y");
+            // lon, lat are on the DEM's datum (WGS 84): the file's own degrees back.
+            assert_close!(table.num(i, "lon"), table.num(i, "x"), 1e-8, "{id} lon");
+            assert_close!(table.num(i, "lat"), table.num(i, "y"), 1e-8, "{id} lat");
+            // The UTM run's lon, lat (ringsum through PROJ) are pyproj's.
+            assert_close!(reference.num(i, "lon"), table.num(i, "x"), 1e-8, "{id} lon");
+            assert_close!(reference.num(i, "lat"), table.num(i, "y"), 1e-8, "{id} lat");
             for col in [
                 "elev_m",
                 "dem_elev_m",
@@ -364,7 +372,7 @@ fn allow_gaps_reports_the_coverage() {
         table.get(corner, "coverage")
     );
     assert!(partial > 0);
-    assert_eq!(entries(&out_dir), ["tc.csv"]);
+    assert_eq!(entries(&out_dir), ["tc.csv", "tc.csv.run.json"]);
 }
 
 // ---------------------------------------------------------------------------------------
@@ -456,7 +464,7 @@ fn raster_gdal_cannot_open_is_refused() {
     refused(
         &s.dir,
         cmd,
-        &["fake.tif", "GDAL cannot open", "give a GeoTIFF"],
+        &["fake.tif", "not a raster GDAL can read", "give a GeoTIFF"],
     );
 }
 
@@ -810,7 +818,11 @@ fn output_that_is_not_csv_is_refused() {
         refused(
             &s.dir,
             cmd,
-            &[name, "give a path ending in .csv", "- for standard output"],
+            &[
+                name,
+                "give a path with one of these endings",
+                "- for CSV on standard output",
+            ],
         );
     }
 }

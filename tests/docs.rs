@@ -438,7 +438,22 @@ fn readme_examples_come_from_the_binary() {
     readme.set("demo-table", &format!("```\n{}\n```\n", head.join("\n")));
 
     readme.set("worked-station", &worked_station().table);
+    readme.set("bad-input", &bad_input_table());
     readme.finish();
+}
+
+/// The README's table of refused input: each case of tests/common/bad_input.rs, run and
+/// checked, with the sentence ringsum printed.
+fn bad_input_table() -> String {
+    let mut md = String::from("| refused | ringsum says | exit |\n|---|---|---|\n");
+    for case in common::bad_input::CASES {
+        let said = common::bad_input::refuse(case)
+            .replace('\\', "\\\\")
+            .replace('|', "\\|")
+            .replace('<', "&lt;");
+        md.push_str(&format!("| {} | {said} | {} |\n", case.what, case.status));
+    }
+    md
 }
 
 // ---------------------------------------------------------------------------------------

@@ -153,7 +153,7 @@ fn latitudes_through_proj_match_pyproj() {
     eprintln!("latitude vs pyproj: {rows} points, max |diff| {worst:.2e} deg");
     assert!(matches!(
         ringsum::dem::crs::geodetic_lon_lat("", &[(0.0, 0.0)]),
-        Err(ringsum::dem::crs::CrsError::Build { .. })
+        Err(ringsum::dem::crs::CrsError::Unknown { .. })
     ));
     // A point the inverse transverse Mercator cannot take back.
     assert!(matches!(
@@ -332,10 +332,12 @@ fn check_chain(table: &Csv, m: &Models) -> f64 {
 }
 
 /// Columns of the `correct` table without gravity (tests/cli.rs).
-const TC_COLUMNS: [&str; 12] = [
+const TC_COLUMNS: [&str; 14] = [
     "station",
     "x",
     "y",
+    "lon",
+    "lat",
     "elev_m",
     "dem_elev_m",
     "elev_minus_dem_m",
@@ -367,7 +369,14 @@ fn full_chain_spherical_grs80_second_order() {
     let mut expected: Vec<&str> = TC_COLUMNS.to_vec();
     expected.push("latitude_deg");
     expected.extend(CHAIN_COLUMNS);
+    // The file's columns this run does not read come last, as they are; the gravity
+    // column it reads (Gobs) is not repeated.
+    expected.extend(["N", "rho"]);
     assert_eq!(table.headers, expected);
+    for (i, (id, _, n, rho)) in SURVEY.iter().enumerate() {
+        assert_eq!(table.get(i, "N"), n.to_string(), "{id}");
+        assert_eq!(table.get(i, "rho"), rho.to_string(), "{id}");
+    }
     let worst = check_chain(
         &table,
         &Models {
@@ -412,6 +421,7 @@ fn full_chain_planar_wgs84_first_order_undulation_and_density_column() {
     let mut expected: Vec<&str> = TC_COLUMNS.to_vec();
     expected.extend(["density_kg_m3", "latitude_deg", "ellipsoidal_height_m"]);
     expected.extend(CHAIN_COLUMNS);
+    // Every column of the file is read (gravity, undulation, density): none is carried.
     assert_eq!(table.headers, expected);
     let worst = check_chain(
         &table,

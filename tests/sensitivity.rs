@@ -517,7 +517,13 @@ fn sweep_writes_the_station_summary_and_plots_of_the_stated_size() {
     assert!(text(&assert.get_output().stdout).contains("ringsum sweep: 4 station(s)"));
     assert_eq!(
         entries(&out),
-        ["stations.csv", "sweep.csv", "sweep.png", "sweep.svg"]
+        [
+            "stations.csv",
+            "sweep.csv",
+            "sweep.csv.run.json",
+            "sweep.png",
+            "sweep.svg"
+        ]
     );
     assert_eq!(png_size(&out.join("sweep.png")), (640, 480));
     let svg = std::fs::read_to_string(out.join("sweep.svg")).unwrap();
@@ -1058,7 +1064,7 @@ fn a_map_node_on_a_station_has_the_stations_tc_and_reads_back_through_gdal() {
         stderr.contains("5 x 5 = 25 nodes at 250m spacing"),
         "{stderr}"
     );
-    assert_eq!(entries(&out), ["tc.png", "tc.tif"]);
+    assert_eq!(entries(&out), ["tc.png", "tc.tif", "tc.tif.run.json"]);
     assert_eq!(png_size(&out.join("tc.png")), (700, 500));
     let Tif {
         values,

@@ -59,7 +59,11 @@ fn axis(lo: f64, hi: f64, spacing: f64) -> (f64, f64) {
 
 /// A spacing of 1, 2 or 5 times a power of ten at least `spacing * sqrt(nodes / limit)`.
 pub fn suggest_spacing(spacing: f64, nodes: f64, limit: f64) -> f64 {
-    let need = spacing * (nodes / limit).sqrt() * 1.0001;
+    next_125(spacing * (nodes / limit).sqrt() * 1.0001)
+}
+
+/// The smallest of 1, 2 or 5 times a power of ten that is at least `need` (> 0, finite).
+fn next_125(need: f64) -> f64 {
     let mut p = 10f64.powf(need.log10().floor());
     loop {
         for m in [1.0, 2.0, 5.0] {
@@ -68,6 +72,50 @@ pub fn suggest_spacing(spacing: f64, nodes: f64, limit: f64) -> f64 {
             }
         }
         p *= 10.0;
+    }
+}
+
+/// The finest 1-2-5 spacing whose grid over `extent` holds at most [`MAX_NODES`], with
+/// its node count; `None` when the extent is too large for any.
+fn fitting_spacing(extent: (f64, f64, f64, f64), spacing: f64) -> Option<(f64, f64)> {
+    let (xmin, ymin, xmax, ymax) = extent;
+    let count = |s: f64| axis(xmin, xmax, s).1 * axis(ymin, ymax, s).1;
+    // The grid's nodes fill its area at one per spacing squared, at least.
+    let from_area = ((xmax - xmin) * (ymax - ymin) / MAX_NODES).sqrt();
+    let from_count = spacing * (count(spacing) / MAX_NODES).sqrt();
+    let start = [from_area, from_count]
+        .into_iter()
+        .filter(|v| v.is_finite() && *v > 0.0)
+        .fold(spacing, f64::max);
+    let mut s = next_125(start * 1.0001);
+    for _ in 0..64 {
+        let n = count(s);
+        if !s.is_finite() || !n.is_finite() {
+            return None;
+        }
+        if n <= MAX_NODES {
+            return Some((s, n));
+        }
+        s = next_125(s * 1.5);
+    }
+    None
+}
+
+/// A node count along an axis: digits up to a billion, else in powers of ten.
+fn count_text(n: f64) -> String {
+    if n < 1e9 {
+        format!("{n:.0}")
+    } else {
+        total_text(n)
+    }
+}
+
+/// A grid's node count, in powers of ten.
+fn total_text(n: f64) -> String {
+    if n.is_finite() {
+        format!("{n:.2e}")
+    } else {
+        "more than 1e308".to_string()
     }
 }
 
@@ -89,19 +137,27 @@ pub fn node_grid(extent: (f64, f64, f64, f64), spacing: f64) -> anyhow::Result<N
     }
     let nodes = nx * ny;
     if nodes > MAX_NODES {
-        let better = suggest_spacing(spacing, nodes, MAX_NODES);
-        let (_, bx) = axis(xmin, xmax, better);
-        let (_, by) = axis(ymin, ymax, better);
+        let fix = match fitting_spacing(extent, spacing) {
+            Some((better, n)) => format!(
+                "give --spacing {} ({} nodes) or a smaller --extent",
+                format_length(better),
+                total_text(n)
+            ),
+            None => "give a much smaller --extent".to_string(),
+        };
+        let bytes = nodes * BYTES_PER_NODE;
+        let memory = if bytes.is_finite() {
+            format!("would need about {} and ", bytes_text(bytes))
+        } else {
+            String::new()
+        };
         bail!(
-            "a grid of {:.0} x {:.0} = {:.2e} nodes at {} spacing would need about {} and is over the limit of {:.0e} nodes; give --spacing {} ({:.2e} nodes) or a smaller --extent",
-            nx,
-            ny,
-            nodes,
+            "a grid of {} x {} = {} nodes at {} spacing {memory}is over the limit of {:.0e} nodes; {fix}",
+            count_text(nx),
+            count_text(ny),
+            total_text(nodes),
             format_length(spacing),
-            bytes_text(nodes * BYTES_PER_NODE),
             MAX_NODES,
-            format_length(better),
-            bx * by
         );
     }
     let top = (ymax / spacing + 1e-9).floor();
@@ -206,5 +262,19 @@ mod tests {
         assert!(e.contains("--spacing 50m"), "{e}");
         assert_eq!(suggest_spacing(10.0, 1.6e9, 2e8), 50.0);
         assert_eq!(suggest_spacing(250.0, 4e8, 2e8), 500.0);
+        // Absurd sizes give a short sentence and a spacing that fits.
+        for (extent, spacing) in [
+            ((0.0, 0.0, 10_000.0, 10_000.0), 1e-300),
+            ((0.0, 0.0, 1e30, 1e30), 100.0),
+            ((-1e300, -1e300, 1e300, 1e300), 1.0),
+        ] {
+            let e = node_grid(extent, spacing).unwrap_err().to_string();
+            assert!(e.len() < 300, "{e}");
+            assert!(!e.contains("inf") && !e.contains("NaN"), "{e}");
+        }
+        let e = node_grid((0.0, 0.0, 10_000.0, 10_000.0), 1e-300)
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("--spacing 1m (1.00e8 nodes)"), "{e}");
     }
 }

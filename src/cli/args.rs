@@ -76,7 +76,9 @@ pub struct InputArgs {
     #[arg(long, value_name = "PATH", required = true, help_heading = "Input")]
     pub dem: Vec<PathBuf>,
 
-    /// Station file: CSV with a header. Columns are found by common names
+    /// Station file: a text table with a header (CSV; semicolon, tab or space separated;
+    /// `#` comment lines), or a point layer GDAL reads (GeoPackage, Shapefile, GeoJSON,
+    /// FlatGeobuf: positions and CRS from the layer). Columns are found by common names
     /// (station/id/name, x/east/easting, y/north/northing, elev/elevation/z/h; lon/lat
     /// imply EPSG:4326) or named with the --*-col options. Needed by correct, sweep and
     /// audit; map uses it for --extent stations and to mark the stations, plan to measure
@@ -101,6 +103,31 @@ pub struct InputArgs {
     /// Name of the station-height column (m, same vertical datum as the DEMs).
     #[arg(long, value_name = "NAME", help_heading = "Input")]
     pub elev_col: Option<String>,
+
+    /// Field separator of a text station file: comma, semicolon, tab or space (runs of
+    /// spaces). Default: found from the header line.
+    #[arg(long, value_name = "SEP", help_heading = "Input")]
+    pub delimiter: Option<String>,
+
+    /// Character encoding of a text station file: utf-8 (default) or latin-1.
+    #[arg(long, value_name = "NAME", help_heading = "Input")]
+    pub encoding: Option<String>,
+
+    /// Leave the station file's own other columns (line, date, operator, ...) out of the
+    /// per-station tables; by default they are carried, unchanged, after ringsum's.
+    #[arg(long, help_heading = "Output")]
+    pub drop_station_columns: bool,
+
+    /// Value that marks missing data in DEMs that declare no nodata value (e.g. -32768):
+    /// cells holding it are nodata. A DEM without a declared nodata whose cells hold such
+    /// a mark is refused until it is given.
+    #[arg(
+        long,
+        value_name = "VALUE",
+        allow_negative_numbers = true,
+        help_heading = "Input"
+    )]
+    pub dem_nodata: Option<f64>,
 
     /// Accept stations (or map nodes) whose outer radius reaches past the DEMs or into
     /// nodata; their coverage column says how much of the disc had data.
@@ -270,6 +297,12 @@ pub struct RunArgs {
     /// No progress bar or summary on stderr.
     #[arg(long, short, help_heading = "Output")]
     pub quiet: bool,
+
+    /// Where to write the run record (JSON: version, command line, settings, zone plan,
+    /// input files with their SHA-256, times, warnings). Default: beside the output,
+    /// OUT.run.json; with --out - only when given.
+    #[arg(long, value_name = "PATH", help_heading = "Output")]
+    pub record: Option<std::path::PathBuf>,
 }
 
 /// The size of a picture.
@@ -295,8 +328,9 @@ pub struct CorrectArgs {
     #[command(flatten)]
     pub run: RunArgs,
 
-    /// Output table: a .csv path, or - for standard output. Written to a temporary file
-    /// and renamed, so a failed run leaves nothing behind.
+    /// Output table: a .csv path, a .gpkg (GeoPackage point layer in the stations' CRS)
+    /// or .geojson (points in longitude and latitude), or - for CSV on standard output.
+    /// Written to a temporary file and renamed, so a failed run leaves nothing behind.
     #[arg(long, value_name = "PATH", help_heading = "Output")]
     pub out: PathBuf,
 }
@@ -361,12 +395,13 @@ pub struct SweepArgs {
     #[arg(long, value_name = "PATH", help_heading = "Sweep")]
     pub compare_dem: Vec<PathBuf>,
 
-    /// Output table: a .csv path, or - for standard output.
+    /// Output table: a .csv, .gpkg or .geojson path, or - for CSV on standard output.
     #[arg(long, value_name = "PATH", help_heading = "Output")]
     pub out: PathBuf,
 
     /// One row per station as well: final TC, the radii where 95% and 99% of it are
-    /// reached, and the TC per density and per DEM at the outer radius (.csv).
+    /// reached, and the TC per density and per DEM at the outer radius (.csv, .gpkg or
+    /// .geojson).
     #[arg(long, value_name = "PATH", help_heading = "Output")]
     pub station_summary: Option<PathBuf>,
 
@@ -391,8 +426,8 @@ pub struct AuditArgs {
     #[command(flatten)]
     pub run: RunArgs,
 
-    /// Per-station report: a .csv path, or - for standard output (the summary then goes
-    /// to standard error).
+    /// Per-station report: a .csv, .gpkg or .geojson path, or - for CSV on standard
+    /// output (the summary then goes to standard error).
     #[arg(long, value_name = "PATH", help_heading = "Output")]
     pub out: PathBuf,
 

@@ -28,6 +28,7 @@ use crate::output::plot::{
     parse_plot_size, write_figure, HistogramFigure, PlotFormat, PlotTarget, ScatterFigure,
     ZoneFigure,
 };
+use crate::output::record::SettingsRecord;
 use crate::output::station_table::{zone_columns, StationColumns, LEADING_COLUMNS};
 use crate::output::table::{from_units, to_units, Cell, Table};
 use crate::results::PointTc;
@@ -64,6 +65,20 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
     let dup_distance = parse_threshold(&args.duplicate_distance, "--duplicate-distance", true)?;
     let plot_size = parse_plot_size(&args.plot_size.plot_size)?;
     check_duplicate_ids(&source.path, source.columns.station.as_deref())?;
+    let ext = match args.plot_format {
+        PlotFormatArg::Png => "png",
+        PlotFormatArg::Svg => "svg",
+    };
+    let plot_files: Vec<std::path::PathBuf> = match &args.plots {
+        Some(dir) => ["legacy_scatter", "legacy_histogram", "legacy_zones"]
+            .iter()
+            .map(|name| dir.join(format!("{name}.{ext}")))
+            .collect(),
+        None => Vec::new(),
+    };
+    let mut outputs: Vec<(&std::path::Path, &str)> = vec![(&args.out, "--out")];
+    outputs.extend(plot_files.iter().map(|p| (p.as_path(), "--plots")));
+    let mut book = super::RunBook::start("audit", &tc, &run, target.path(), &outputs)?;
     let opened = Opened::open(&tc)?;
     let footprint = opened.station_xy();
     let inputs = opened.read(&tc, &footprint)?;
@@ -71,7 +86,7 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
     let table = inputs.table();
     let stations = &table.stations;
     let plan = tc.plan(inputs.cell_m())?;
-    super::warn_sector_rings(&inputs, &tc, &plan, &run)?;
+    super::warn_sector_rings(&mut book, &inputs, &tc, &plan, &run)?;
     let radius = tc.engine.outer_radius_m;
 
     // Legacy columns.
@@ -212,7 +227,7 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
         |i: usize| results[i].is_some() && (checks[i].coverage >= 1.0 || tc.allow_gaps);
 
     // The report.
-    let columns = StationColumns::of(&inputs);
+    let columns = StationColumns::of(&inputs, tc.carry_station_columns);
     // The legacy comparison follows the heights, where `correct` has tc_mgal, so that
     // the columns the two tables share come in one order.
     let mut headers: Vec<String> = LEADING_COLUMNS.iter().map(|s| s.to_string()).collect();
@@ -244,7 +259,11 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
         headers.push(format!("legacy_tc_{}_mgal", z.zone));
         headers.push(format!("diff_zone_{}_mgal", z.zone));
     }
+    let carried = columns.carried_headers(&inputs, &headers);
+    headers.extend(carried);
     let mut report = Table::new(&headers);
+    report.check_unique_headers("rename the legacy zone column")?;
+    report.points = Some(columns.points(&inputs, 1));
     let mut diffs: Vec<(usize, f64)> = Vec::new();
     let mut zone_diffs: Vec<Vec<f64>> = vec![Vec::new(); zone_columns.len()];
     for (i, (s, c)) in stations.iter().zip(&checks).enumerate() {
@@ -309,14 +328,11 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
             row.push(Cell::opt(old, 4));
             row.push(Cell::opt(diff, 4));
         }
+        row.extend(columns.carried_cells(&inputs, i));
         report.push(&s.id, row);
     }
 
     // Plots.
-    let ext = match args.plot_format {
-        PlotFormatArg::Png => "png",
-        PlotFormatArg::Svg => "svg",
-    };
     let format = match args.plot_format {
         PlotFormatArg::Png => PlotFormat::Png,
         PlotFormatArg::Svg => PlotFormat::Svg,
@@ -415,6 +431,11 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
     }
 
     report.write(&target)?;
+    book.finish(
+        Some(SettingsRecord::new(&tc, &plan, None)),
+        &inputs,
+        super::correct::threads(&run),
+    )?;
 
     // The human summary.
     let mut out = String::new();
@@ -647,7 +668,7 @@ pub fn audit(args: &AuditArgs) -> anyhow::Result<()> {
                 eprint!("{out}");
             }
         }
-        TableTarget::Csv(_) => print!("{out}"),
+        _ => print!("{out}"),
     }
     Ok(())
 }

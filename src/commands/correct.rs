@@ -8,6 +8,7 @@ use crate::engine::Convention;
 use crate::inputs::gravity::{self, GravityData};
 use crate::inputs::{Inputs, Opened};
 use crate::output::files::TableTarget;
+use crate::output::record::SettingsRecord;
 use crate::output::station_table::correct_table;
 use crate::reduce::BouguerModel;
 use crate::results::{PointTc, ReductionTerms};
@@ -21,6 +22,8 @@ pub fn correct(args: &CorrectArgs) -> anyhow::Result<()> {
     let run = RunSettings::from_args(&args.run)?;
     tc.require_stations("correct")?;
     let target = TableTarget::check(&args.out, "--out")?;
+    let mut book =
+        super::RunBook::start("correct", &tc, &run, target.path(), &[(&args.out, "--out")])?;
 
     let opened = Opened::open(&tc)?;
     let footprint = opened.station_xy();
@@ -28,7 +31,7 @@ pub fn correct(args: &CorrectArgs) -> anyhow::Result<()> {
     super::print_notes(&inputs, run.quiet);
     let plan = tc.plan(inputs.cell_m())?;
     let gravity = gravity::read(inputs.table(), &reduction, &inputs.dems.base_crs)?;
-    super::warn_sector_rings(&inputs, &tc, &plan, &run)?;
+    super::warn_sector_rings(&mut book, &inputs, &tc, &plan, &run)?;
 
     let started = Instant::now();
     let results: Vec<PointTc> =
@@ -46,12 +49,24 @@ pub fn correct(args: &CorrectArgs) -> anyhow::Result<()> {
         terms
             .as_deref()
             .zip(gravity.as_ref().map(|g| g.from_undulation)),
+        tc.carry_station_columns,
     )?;
     table.write(&target)?;
+    book.finish(
+        Some(SettingsRecord::new(&tc, &plan, Some(&reduction))),
+        &inputs,
+        threads(&run),
+    )?;
     if !run.quiet {
         summarise(&results, started.elapsed().as_secs_f64(), &target);
     }
     Ok(())
+}
+
+/// The worker threads a run uses.
+pub fn threads(run: &RunSettings) -> usize {
+    run.threads
+        .unwrap_or_else(crate::engine::run::current_threads)
 }
 
 /// Each station's reduction terms.

@@ -17,9 +17,10 @@ use crate::config::{usage, DensityModel, RunSettings, TcSettings};
 use crate::dem::GridKind;
 use crate::engine::{run, Convention, InnerModel, Method, Point};
 use crate::inputs::{Inputs, Opened};
-use crate::output::files::{check_extension, check_folder};
+use crate::output::files::{check_extension, check_writable};
 use crate::output::geotiff::{write_grid, GridLabels, GridPlacement};
 use crate::output::plot::{check_plot_target, parse_plot_size, write_figure, MapFigure};
+use crate::output::record::SettingsRecord;
 use crate::text::{bytes_text, duration_text, number};
 use crate::units::{format_length, parse_length_m, to_mgal};
 use anyhow::bail;
@@ -204,12 +205,17 @@ pub fn map(args: &MapArgs) -> anyhow::Result<()> {
         &["tif", "tiff"],
         "the map is written as a GeoTIFF; give a path ending in .tif",
     )?;
-    check_folder(&args.out, "--out")?;
+    check_writable(&args.out, "--out")?;
     let preview = match &args.preview {
         Some(p) => Some(check_plot_target(p, "--preview", true)?),
         None => None,
     };
     let plot_size = parse_plot_size(&args.plot_size.plot_size)?;
+    let mut outputs: Vec<(&std::path::Path, &str)> = vec![(&args.out, "--out")];
+    if let Some(p) = &args.preview {
+        outputs.push((p, "--preview"));
+    }
+    let book = super::RunBook::start("map", &tc, &run_settings, Some(&args.out), &outputs)?;
 
     let opened = Opened::open(&tc)?;
     let geographic = opened.dems.primary_kind() != GridKind::Projected;
@@ -323,6 +329,22 @@ pub fn map(args: &MapArgs) -> anyhow::Result<()> {
             "height of the finest DEM with data at the node".to_string(),
         ),
         ("RINGSUM_DEMS", dem_names.join("; ")),
+        (
+            "RINGSUM_PLAN",
+            plan.rings
+                .iter()
+                .map(|r| {
+                    format!(
+                        "{} {}-{} m {}",
+                        r.name,
+                        number(r.inner_m),
+                        number(r.outer_m),
+                        r.method.name()
+                    )
+                })
+                .collect::<Vec<_>>()
+                .join("; "),
+        ),
     ];
     if let Some(w) = &inputs.water {
         metadata.push(("RINGSUM_WATER_DENSITY_KG_M3", number(w.density_kg_m3)));
@@ -366,6 +388,11 @@ pub fn map(args: &MapArgs) -> anyhow::Result<()> {
         };
         write_figure(target, plot_size, &figure)?;
     }
+    book.finish(
+        Some(SettingsRecord::new(&tc, &plan, None)),
+        &inputs,
+        super::correct::threads(&run_settings),
+    )?;
     if !run_settings.quiet {
         let (mut lo, mut hi) = (f32::INFINITY, f32::NEG_INFINITY);
         for &v in &values {

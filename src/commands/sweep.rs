@@ -23,6 +23,7 @@ use crate::output::files::TableTarget;
 use crate::output::plot::{
     check_plot_target, parse_plot_size, write_figure, PlotTarget, SweepCurve, SweepFigure,
 };
+use crate::output::record::SettingsRecord;
 use crate::output::table::{Cell, Table};
 use crate::results::PointTc;
 use crate::text::number;
@@ -180,6 +181,18 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
             );
         }
     }
+    let mut outputs: Vec<(&std::path::Path, &str)> = vec![(&args.out, "--out")];
+    if let Some(p) = &args.station_summary {
+        outputs.push((p, "--station-summary"));
+    }
+    outputs.extend(args.plot.iter().map(|p| (p.as_path(), "--plot")));
+    let compare: Vec<(&str, &std::path::Path)> = args
+        .compare_dem
+        .iter()
+        .map(|p| ("compare_dem", p.as_path()))
+        .collect();
+    let mut book =
+        super::RunBook::start_with("sweep", &tc, &run, target.path(), &outputs, &compare)?;
 
     let opened = Opened::open(&tc)?;
     let finest_files = opened.dems.files()[0].clone();
@@ -192,7 +205,7 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
     super::print_notes(&inputs, run.quiet);
 
     let plan = tc.plan(inputs.cell_m())?;
-    super::warn_sector_rings(&inputs, &tc, &plan, &run)?;
+    super::warn_sector_rings(&mut book, &inputs, &tc, &plan, &run)?;
     let inner_m = inner_zone_radius_m(&plan, inputs.cell_m());
     let asked = match &args.radii {
         Some(text) => parse_radii(text, inner_m, outer)?,
@@ -267,6 +280,8 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
         "coverage",
     ]));
     table.check_unique_headers("give --densities each value once")?;
+    let stations_columns = crate::output::station_table::StationColumns::of(&inputs, false);
+    table.points = Some(stations_columns.points(&inputs, radii.len()));
     let round4 = |v: f64| (v * 1e4).round() / 1e4;
     for (i, s) in stations.iter().enumerate() {
         let tc_i = &main.tc_mgal[i];
@@ -308,6 +323,7 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
         let mut t = Table::new(&extra_columns(&[
             "station", "tc_mgal", "r95_m", "r99_m", "coverage",
         ]));
+        t.points = Some(stations_columns.points(&inputs, 1));
         let last_j = radii.len() - 1;
         for (i, s) in stations.iter().enumerate() {
             let last = main.last(i);
@@ -377,6 +393,11 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
         write_figure(p, plot_size, &figure)
             .with_context(|| format!("{}: the plot could not be drawn", p.path.display()))?;
     }
+    book.finish(
+        Some(SettingsRecord::new(&tc, &plan, None)),
+        &inputs,
+        super::correct::threads(&run),
+    )?;
 
     let text = summary_text(
         &main,
@@ -390,13 +411,14 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
         &tc,
         &target,
     );
-    match target {
-        TableTarget::Stdout => {
-            if !run.quiet {
-                eprint!("{text}");
-            }
+    // Standard output holds a table when one goes there: the summary then goes to
+    // standard error.
+    if target == TableTarget::Stdout || summary_target == Some(TableTarget::Stdout) {
+        if !run.quiet {
+            eprint!("{text}");
         }
-        TableTarget::Csv(_) => print!("{text}"),
+    } else {
+        print!("{text}");
     }
     Ok(())
 }

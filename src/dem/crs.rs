@@ -2,6 +2,17 @@
 //! comparison). Every other module moves points between CRS through [`Transform`].
 
 use gdal::spatial_ref::SpatialRef;
+use std::sync::Once;
+
+/// Keeps PROJ from printing its own error lines on stderr: its errors reach the user
+/// folded into ringsum's one sentence instead. New PROJ contexts copy the default
+/// context's log level, so this is set once, before the first transformation.
+pub fn quiet_proj() {
+    static ONCE: Once = Once::new();
+    ONCE.call_once(|| unsafe {
+        proj_sys::proj_log_level(std::ptr::null_mut(), proj_sys::PJ_LOG_LEVEL_PJ_LOG_NONE);
+    });
+}
 
 /// A transformation from one CRS into another; the identity when both are the same.
 pub struct Transform {
@@ -11,6 +22,8 @@ pub struct Transform {
 /// Why points could not be moved between two CRS.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum CrsError {
+    #[error("{name} is not a coordinate reference system PROJ knows")]
+    Unknown { name: String },
     #[error("PROJ cannot build a transformation from {from} to {to} ({detail})")]
     Build {
         from: String,
@@ -39,12 +52,20 @@ impl Transform {
         if from == to || same_crs(from, to) {
             return Ok(Transform::identity());
         }
+        quiet_proj();
+        for (definition, name) in [(from, from_name), (to, to_name)] {
+            if SpatialRef::from_definition(definition).is_err() {
+                return Err(CrsError::Unknown {
+                    name: name.to_string(),
+                });
+            }
+        }
         proj::Proj::new_known_crs(from, to, None)
             .map(|p| Transform { proj: Some(p) })
-            .map_err(|e| CrsError::Build {
+            .map_err(|_| CrsError::Build {
                 from: from_name.to_string(),
                 to: to_name.to_string(),
-                detail: e.to_string(),
+                detail: "PROJ has no transformation between them".to_string(),
             })
     }
 
@@ -58,10 +79,10 @@ impl Transform {
         let Some(p) = &self.proj else {
             return Ok((x, y));
         };
-        let (u, v) = p.convert((x, y)).map_err(|e| CrsError::Point {
+        let (u, v) = p.convert((x, y)).map_err(|_| CrsError::Point {
             x,
             y,
-            detail: e.to_string(),
+            detail: "PROJ cannot transform it".to_string(),
         })?;
         if u.is_finite() && v.is_finite() {
             Ok((u, v))
@@ -113,6 +134,28 @@ pub fn is_geographic(definition: &str) -> bool {
     SpatialRef::from_definition(definition)
         .map(|s| s.is_geographic())
         .unwrap_or(false)
+}
+
+/// The geographic (longitude, latitude) CRS of the datum of `definition`, as WKT.
+pub fn geographic_of(definition: &str) -> Option<String> {
+    SpatialRef::from_definition(definition)
+        .ok()?
+        .geog_cs()
+        .ok()?
+        .to_wkt()
+        .ok()
+}
+
+/// Longitude and latitude (degrees, east and north positive) of points given in the CRS
+/// `from`, on that CRS's own datum (its geographic CRS): for a DEM's CRS, the DEM's datum.
+pub fn lon_lat_on_datum(from: &str, points: &[(f64, f64)]) -> Result<Vec<(f64, f64)>, CrsError> {
+    let geographic = geographic_of(from).ok_or_else(|| CrsError::Unknown {
+        name: "the DEM's CRS".into(),
+    })?;
+    let t = Transform::between(from, &geographic, "the DEM's CRS", "its geographic CRS")?;
+    let mut out = points.to_vec();
+    t.convert_all(&mut out)?;
+    Ok(out)
 }
 
 /// Geodetic longitude and latitude (degrees, WGS 84, east and north positive) of points

@@ -3,13 +3,74 @@
 use super::{Dem, Ellipsoid, GridKind};
 use gdal::Dataset;
 use std::path::Path;
+use std::sync::{Mutex, Once};
+
+/// GDAL's messages since they were last taken (see [`catch_gdal_messages`]).
+static GDAL_MESSAGES: Mutex<Vec<String>> = Mutex::new(Vec::new());
+
+/// Routes GDAL's error and warning messages into a list instead of stderr, so that they
+/// reach the user folded into ringsum's one sentence. Set once.
+pub fn catch_gdal_messages() {
+    static ONCE: Once = Once::new();
+    ONCE.call_once(|| {
+        gdal::config::set_error_handler(|class, _number, message| {
+            if matches!(
+                class,
+                gdal::errors::CplErrType::Failure | gdal::errors::CplErrType::Fatal
+            ) {
+                if let Ok(mut m) = GDAL_MESSAGES.lock() {
+                    m.push(message.trim().to_string());
+                }
+            }
+        });
+    });
+}
+
+/// GDAL's messages since the last call, as one clause (`it says: ...`), or `otherwise`
+/// when GDAL said nothing (the library's own error text is not for users).
+pub fn gdal_says(otherwise: &str) -> String {
+    let messages = GDAL_MESSAGES
+        .lock()
+        .map(|mut m| std::mem::take(&mut *m))
+        .unwrap_or_default();
+    if messages.is_empty() {
+        otherwise.to_string()
+    } else {
+        format!("it says: {}", crate::text::cut(&messages.join("; "), 160))
+    }
+}
+
+/// Why GDAL may find no raster in a file it said nothing about.
+fn unreadable_why(path: &Path) -> String {
+    let ext = path
+        .extension()
+        .and_then(|e| e.to_str())
+        .map(str::to_ascii_lowercase)
+        .unwrap_or_default();
+    match ext.as_str() {
+        "csv" | "txt" | "tsv" | "xyz" => {
+            "it looks like a table, not a raster; stations go with --stations".into()
+        }
+        "gpkg" | "shp" | "geojson" | "json" | "fgb" | "kml" => {
+            "it holds vector data, not a raster".into()
+        }
+        _ => "no raster format GDAL knows matches it".into(),
+    }
+}
+
+/// Forgets GDAL's earlier messages (before a call whose messages are wanted).
+fn clear_gdal_messages() {
+    if let Ok(mut m) = GDAL_MESSAGES.lock() {
+        m.clear();
+    }
+}
 
 /// Why a DEM could not be used; each message is one sentence naming the file and what to do.
 #[derive(Debug, thiserror::Error)]
 pub enum DemError {
     #[error("{path}: file not found; check the path given with --dem")]
     NotFound { path: String },
-    #[error("{path}: GDAL cannot open it as a raster ({detail}); give a GeoTIFF, ASCII grid or another raster GDAL reads")]
+    #[error("{path}: this is not a raster GDAL can read ({detail}); give a GeoTIFF, ASCII grid or another raster GDAL reads")]
     Unreadable { path: String, detail: String },
     #[error("{path}: the raster has {bands} bands; give a single-band elevation raster (e.g. extract one with gdal_translate -b 1)")]
     Bands { path: String, bands: usize },
@@ -39,6 +100,15 @@ pub enum DemError {
     VerticalUnit { path: String, unit: String },
     #[error("{path}: every cell is nodata; give a DEM with elevation values")]
     AllNodata { path: String },
+    #[error("{path}: {count} cell(s) hold {value}, which is {what}, and the file declares no nodata value; give --dem-nodata {value} if these cells have no data, or fix the file")]
+    Void {
+        path: String,
+        /// The raw value as the file holds it (powers of ten when large).
+        value: String,
+        count: usize,
+        /// `no height on the Earth but the usual mark of missing data`, or why else.
+        what: String,
+    },
     #[error("{path}: reading the raster failed ({detail})")]
     Read { path: String, detail: String },
 }
@@ -82,6 +152,8 @@ pub struct DemHeader {
     offset: f64,
     /// Band 1's unit as declared ("" when none).
     unit: String,
+    /// Whether the band holds heights (checked against the Earth's relief).
+    heights: bool,
 }
 
 impl DemHeader {
@@ -105,9 +177,19 @@ impl DemHeader {
         }
         // The grid is read once; GDAL's block cache would only hold a second copy.
         let _ = gdal::config::set_config_option("GDAL_CACHEMAX", "64");
-        let ds = Dataset::open(path).map_err(|e| DemError::Unreadable {
+        catch_gdal_messages();
+        clear_gdal_messages();
+        let ds = Dataset::open_ex(
+            path,
+            gdal::DatasetOptions {
+                open_flags: gdal::GdalOpenFlags::GDAL_OF_RASTER
+                    | gdal::GdalOpenFlags::GDAL_OF_READONLY,
+                ..Default::default()
+            },
+        )
+        .map_err(|_| DemError::Unreadable {
             path: p.clone(),
-            detail: e.to_string(),
+            detail: gdal_says(&unreadable_why(path)),
         })?;
         DemHeader::from_dataset(p, ds, heights)
     }
@@ -176,7 +258,7 @@ impl DemHeader {
         let crs_wkt = srs.to_wkt().unwrap_or_default();
         let band = ds.rasterband(1).map_err(|e| DemError::Read {
             path: p.clone(),
-            detail: e.to_string(),
+            detail: gdal_says(&e.to_string()),
         })?;
         let unit = band.unit();
         let nodata = band.no_data_value();
@@ -205,7 +287,30 @@ impl DemHeader {
             scale,
             offset,
             unit,
+            heights,
         })
+    }
+
+    /// Declared nodata value, if any.
+    pub fn nodata(&self) -> Option<f64> {
+        self.nodata
+    }
+
+    /// Takes `value` as the nodata value when the file declares none (`--dem-nodata`).
+    pub fn assume_nodata(&mut self, value: Option<f64>) {
+        if self.nodata.is_none() {
+            self.nodata = value;
+        }
+        if let Source::Tiles(tiles) = &mut self.source {
+            for (t, _, _) in tiles {
+                t.assume_nodata(value);
+            }
+        }
+    }
+
+    /// The vertical unit as declared ("" when none; metres then).
+    pub fn vertical_unit(&self) -> &str {
+        &self.unit
     }
 
     /// The path (or the list of tiles) this header reads.
@@ -307,6 +412,7 @@ impl DemHeader {
             scale,
             offset: offset_v,
             unit,
+            heights: true,
         }
     }
 
@@ -416,7 +522,7 @@ impl DemHeader {
         };
         let band = ds.rasterband(1).map_err(|e| DemError::Read {
             path: p.clone(),
-            detail: e.to_string(),
+            detail: gdal_says(&e.to_string()),
         })?;
         // Read straight into f32 (the DEM's own precision for almost every DEM) so that no
         // second, wider copy of the grid is ever held.
@@ -424,10 +530,13 @@ impl DemHeader {
             .read_as::<f32>((c0 as isize, r0 as isize), (cols, rows), (cols, rows), None)
             .map_err(|e| DemError::Read {
                 path: p.clone(),
-                detail: e.to_string(),
+                detail: gdal_says(&e.to_string()),
             })?;
         let (nodata, scale, offset) = (self.nodata, self.scale, self.offset);
         let (_, mut heights) = buffer.into_shape_and_vec();
+        if self.heights && nodata.is_none() {
+            self.check_voids(&heights)?;
+        }
         let nodata_f32 = nodata.map(|nd| nd as f32);
         let identity = scale == 1.0 && offset == 0.0 && self.unit_factor == 1.0;
         for h in heights.iter_mut() {
@@ -442,6 +551,68 @@ impl DemHeader {
             }
         }
         Ok(heights)
+    }
+}
+
+/// Values DEMs commonly hold where they have no data (from memory: the ones seen in
+/// national and global DEM products and GIS defaults).
+pub const USUAL_VOID_MARKS: [f64; 7] = [
+    -32768.0,
+    -32767.0,
+    -9999.0,
+    -99999.0,
+    32767.0,
+    f32::MAX as f64,
+    -(f32::MAX as f64),
+];
+
+/// Heights a DEM cell may hold, m (raw values, before scale and unit): the ocean trenches
+/// to the summits with a margin; a value outside is no height on the Earth.
+pub const DEM_HEIGHT_RANGE_M: (f64, f64) = (-12_000.0, 9_500.0);
+
+impl DemHeader {
+    /// Refuses raw values that mark missing data (or are no height on the Earth) in a file
+    /// that declares no nodata value, naming the value and the option to declare it.
+    fn check_voids(&self, raw: &[f32]) -> Result<(), DemError> {
+        let height = |v: f32| (v as f64 * self.scale + self.offset) * self.unit_factor;
+        let mut worst: Option<(f32, usize)> = None;
+        for &v in raw {
+            if v.is_nan() {
+                continue;
+            }
+            let h = height(v);
+            let void = USUAL_VOID_MARKS.contains(&(v as f64))
+                || !(DEM_HEIGHT_RANGE_M.0..=DEM_HEIGHT_RANGE_M.1).contains(&h);
+            if void {
+                match &mut worst {
+                    Some((w, n)) if *w == v => *n += 1,
+                    None => worst = Some((v, 1)),
+                    _ => {}
+                }
+            }
+        }
+        match worst {
+            None => Ok(()),
+            Some((value, count)) => Err(DemError::Void {
+                path: self.path.clone(),
+                // f32's shortest spelling (3.4e38 rather than 39 digits), which
+                // --dem-nodata reads back to the same value.
+                value: if value.abs() >= 1e7 {
+                    format!("{value:e}")
+                } else {
+                    format!("{value}")
+                },
+                count,
+                what: if USUAL_VOID_MARKS.contains(&(value as f64)) {
+                    "no height on the Earth but the usual mark of missing data".into()
+                } else {
+                    format!(
+                        "no height on the Earth ({} to {} m)",
+                        DEM_HEIGHT_RANGE_M.0, DEM_HEIGHT_RANGE_M.1
+                    )
+                },
+            }),
+        }
     }
 }
 

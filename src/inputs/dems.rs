@@ -77,11 +77,12 @@ pub struct DemSet {
 impl OpenedDems {
     /// Opens and checks every DEM file, joins tiles of one grid, and orders the DEMs
     /// finest first.
-    pub fn open(paths: &[PathBuf]) -> anyhow::Result<OpenedDems> {
+    pub fn open(paths: &[PathBuf], dem_nodata: Option<f64>) -> anyhow::Result<OpenedDems> {
         let mut groups: Vec<Vec<DemHeader>> = Vec::new();
         let mut group_files: Vec<Vec<PathBuf>> = Vec::new();
         for path in paths {
-            let header = DemHeader::open(path)?;
+            let mut header = DemHeader::open(path)?;
+            header.assume_nodata(dem_nodata);
             match groups.iter().position(|g| g[0].same_grid(&header)) {
                 Some(k) => {
                     groups[k].push(header);

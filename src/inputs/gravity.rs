@@ -130,7 +130,7 @@ pub fn read(
     let latitude_deg = geodetic_lon_lat(crs_wkt, &points)
         .map_err(|e| {
             let detail = match &e {
-                CrsError::Build { .. } => format!(
+                CrsError::Build { .. } | CrsError::Unknown { .. } => format!(
                     "the stations' latitudes, which normal gravity needs, cannot be derived from the DEM's CRS ({e}); give the DEM a CRS that PROJ knows"
                 ),
                 CrsError::Point { x, y, .. } => {

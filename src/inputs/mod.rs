@@ -7,6 +7,7 @@ pub mod dems;
 pub mod density;
 pub mod field_inner;
 pub mod gravity;
+pub mod records;
 pub mod stations;
 pub mod water;
 
@@ -42,6 +43,8 @@ pub struct Inputs {
     pub stations: Option<StationTable>,
     /// The stations in every DEM's CRS, at their heights: `[dem][station]`.
     pub station_points: Vec<Vec<Point>>,
+    /// Each station's longitude and latitude, degrees, on the finest DEM's datum.
+    pub station_lon_lat: Vec<(f64, f64)>,
     /// The stations' densities (with a station file).
     pub densities: Option<StationDensities>,
     pub water: Option<WaterSet>,
@@ -66,7 +69,7 @@ impl Opened {
     /// Opens the DEMs (headers only) and reads the station file, if any, in the finest
     /// DEM's CRS.
     pub fn open(tc: &TcSettings) -> anyhow::Result<Opened> {
-        let dems = OpenedDems::open(&tc.dems)?;
+        let dems = OpenedDems::open(&tc.dems, tc.dem_nodata)?;
         let stations = match &tc.stations {
             None => None,
             Some(src) => Some(read_stations(
@@ -74,6 +77,7 @@ impl Opened {
                 &src.columns,
                 src.crs.as_deref(),
                 dems.primary_crs(),
+                &src.text,
             )?),
         };
         Ok(Opened { dems, stations })
@@ -91,6 +95,8 @@ impl Opened {
     /// CRS) need them, and everything else the settings ask for.
     pub fn read(self, tc: &TcSettings, footprint: &[(f64, f64)]) -> anyhow::Result<Inputs> {
         let radius = tc.engine.outer_radius_m;
+        // The plan's checks (the radius against the inner zone) before any heights are read.
+        tc.plan(self.dems.primary_cell_m())?;
         let Opened { dems, stations } = self;
         let points = match &stations {
             Some(t) => t.path.display().to_string(),
@@ -175,6 +181,18 @@ impl Opened {
             (_, None) => None,
         };
         dems.build_union(footprint, radius)?;
+        let station_lon_lat = match &stations {
+            None => Vec::new(),
+            Some(t) => {
+                let xy: Vec<(f64, f64)> = t.stations.iter().map(|s| (s.x, s.y)).collect();
+                crate::dem::crs::lon_lat_on_datum(&dems.base_crs, &xy).map_err(|e| {
+                    anyhow::anyhow!(
+                        "{}: the stations' longitudes and latitudes cannot be derived from the finest DEM's CRS ({e}); give the DEM a CRS PROJ knows",
+                        t.path.display()
+                    )
+                })?
+            }
+        };
         let field_inner = match (&tc.field_inner, &stations) {
             (Some(f), Some(t)) => Some(FieldInner::read(t, f)?),
             _ => None,
@@ -184,6 +202,7 @@ impl Opened {
             dems,
             stations,
             station_points,
+            station_lon_lat,
             densities,
             water,
             field_inner,

@@ -1,12 +1,18 @@
-//! Station list: CSV reading, column detection and coordinate transformation (PROJ).
+//! Station list: reading (a text table or a point layer, see [`super::records`]), column
+//! detection and coordinate transformation (PROJ).
 //!
-//! The file needs a header. Columns are found by common names (case-insensitive) or named
-//! with options; the header `station,x,y,elev` works as is. Coordinates are taken to be in
-//! the DEM's CRS unless a station CRS is given; longitude/latitude columns (`lon`, `lat`)
-//! imply EPSG:4326. Heights are used as given: they must be on the DEM's vertical datum.
+//! A text file needs a header. Columns are found by common names (case-insensitive) or
+//! named with options; the header `station,x,y,elev` works as is. Coordinates are taken
+//! to be in the DEM's CRS unless a station CRS is given; longitude/latitude columns
+//! (`lon`, `lat`) imply EPSG:4326. A point layer gives the positions and their CRS
+//! itself, and the height from a column (or the points' own z). Heights are used as
+//! given: they must be on the DEM's vertical datum, and lie within
+//! [`HEIGHT_RANGE_M`].
 
+use super::records::{self, TextOptions, ECHO_MAX};
 use crate::config::{check_density, ColumnChoice};
 use crate::dem::crs::Transform;
+use crate::text::cut;
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 
@@ -23,12 +29,17 @@ pub const LAT_NAMES: &[&str] = &["lat", "latitude"];
 /// Names tried for the station height.
 pub const ELEV_NAMES: &[&str] = &["elev", "elevation", "z", "h", "height", "elev_m"];
 
+/// Station heights accepted, m: the deepest ocean trench (about -11 km) to the highest
+/// summit (about 8.85 km), each with a margin (from memory; our bounds). A height outside
+/// is a wrong value or unit, not a place on the Earth.
+pub const HEIGHT_RANGE_M: (f64, f64) = (-12_000.0, 9_500.0);
+
 /// Why the station file could not be used; one sentence each.
 #[derive(Debug, thiserror::Error)]
 pub enum StationError {
     #[error("{path}: file not found; check the path given with --stations")]
     NotFound { path: String },
-    #[error("{path}: cannot read it ({detail})")]
+    #[error("{path}: {detail}")]
     Unreadable { path: String, detail: String },
     #[error("{path}: no column for {what} (looked for {tried}); columns found: {found}; name it with {option}")]
     MissingColumn {
@@ -92,23 +103,70 @@ pub struct StationTable {
     pub records: Vec<Vec<String>>,
     /// CRS of the coordinates in the file (`None`: the DEM's).
     pub input_crs: Option<String>,
+    /// The columns ringsum read (id, and the x, y and height columns of a text file).
+    pub used_columns: Vec<usize>,
+    /// The columns other parts looked up and read (gravity, undulation, density, field
+    /// inner zone, legacy corrections), through [`StationTable::find_column`] and
+    /// [`StationTable::named_column`].
+    looked_up: LookedUp,
+}
+
+/// Columns looked up in a table shared by reference (the lookups take `&self`).
+#[derive(Debug, Default)]
+struct LookedUp(std::sync::Mutex<Vec<usize>>);
+
+impl LookedUp {
+    fn add(&self, col: usize) {
+        let mut cols = self.0.lock().unwrap_or_else(|p| p.into_inner());
+        if !cols.contains(&col) {
+            cols.push(col);
+        }
+    }
+
+    fn get(&self) -> Vec<usize> {
+        self.0.lock().unwrap_or_else(|p| p.into_inner()).clone()
+    }
+}
+
+impl Clone for LookedUp {
+    fn clone(&self) -> LookedUp {
+        LookedUp(std::sync::Mutex::new(self.get()))
+    }
 }
 
 impl StationTable {
-    /// Index of a column found by the given names (case-insensitive), or by the name the
-    /// user gave.
-    pub fn find_column(&self, names: &[&str]) -> Option<usize> {
-        find_column(&self.headers, names)
+    /// The file's other columns (those ringsum did not read: neither the station's id,
+    /// position and height nor a column looked up for its values), in file order.
+    pub fn other_columns(&self) -> Vec<usize> {
+        let looked_up = self.looked_up.get();
+        (0..self.headers.len())
+            .filter(|c| !self.used_columns.contains(c) && !looked_up.contains(c))
+            .collect()
     }
 
-    /// Index of a column named explicitly, with an error listing the columns if absent.
+    /// Index of a column found by the given names (case-insensitive), or by the name the
+    /// user gave; a column found is one ringsum reads (not carried to the tables).
+    pub fn find_column(&self, names: &[&str]) -> Option<usize> {
+        let col = find_column(&self.headers, names);
+        if let Some(c) = col {
+            self.looked_up.add(c);
+        }
+        col
+    }
+
+    /// Index of a column named explicitly, with an error listing the columns if absent;
+    /// a column found is one ringsum reads (not carried to the tables).
     pub fn named_column(&self, name: &str, option: &'static str) -> Result<usize, StationError> {
-        find_column(&self.headers, &[name]).ok_or_else(|| StationError::NamedColumnMissing {
-            path: self.path.display().to_string(),
-            name: name.to_string(),
-            option,
-            found: self.headers.join(", "),
-        })
+        let col = find_column(&self.headers, &[name]).ok_or_else(|| {
+            StationError::NamedColumnMissing {
+                path: self.path.display().to_string(),
+                name: cut(name, ECHO_MAX),
+                option,
+                found: columns_found(&self.headers),
+            }
+        })?;
+        self.looked_up.add(col);
+        Ok(col)
     }
 
     /// The density of every station from the column `name` (kg/m3, each checked like
@@ -152,6 +210,13 @@ impl StationTable {
     }
 }
 
+/// The header's columns as a message lists them: each name cut to [`ECHO_MAX`], the
+/// list to 200 characters.
+fn columns_found(headers: &[String]) -> String {
+    let names: Vec<String> = headers.iter().map(|h| cut(h, ECHO_MAX)).collect();
+    cut(&names.join(", "), 200)
+}
+
 fn find_column(headers: &[String], names: &[&str]) -> Option<usize> {
     names.iter().find_map(|name| {
         headers
@@ -177,6 +242,7 @@ pub fn parse_number(
     if t.is_empty() {
         return Err(err(format!("column '{column}' is empty")));
     }
+    let t = &cut(t, ECHO_MAX);
     match t.parse::<f64>() {
         Ok(v) if v.is_finite() => Ok(v),
         Ok(_) => Err(err(format!(
@@ -190,38 +256,27 @@ pub fn parse_number(
 ///
 /// `dem_crs_wkt` is the CRS the stations are converted to. `stations_crs` (EPSG code, PROJ
 /// string or WKT) names the CRS of the file's coordinates; without it, x/y columns are
-/// taken to be in the DEM's CRS and lon/lat columns in EPSG:4326.
+/// taken to be in the DEM's CRS, lon/lat columns in EPSG:4326, and a point layer's in
+/// its own CRS.
 pub fn read_stations(
     path: &Path,
     columns: &ColumnChoice,
     stations_crs: Option<&str>,
     dem_crs_wkt: &str,
+    text: &TextOptions,
 ) -> Result<StationTable, StationError> {
     let p = path.display().to_string();
     if !path.exists() {
         return Err(StationError::NotFound { path: p });
     }
-    let mut reader = csv::ReaderBuilder::new()
-        .flexible(false)
-        .trim(csv::Trim::All)
-        .from_path(path)
-        .map_err(|e| StationError::Unreadable {
-            path: p.clone(),
-            detail: e.to_string(),
-        })?;
-    let headers: Vec<String> = reader
-        .headers()
-        .map_err(|e| StationError::Unreadable {
-            path: p.clone(),
-            detail: e.to_string(),
-        })?
-        .iter()
-        .map(|h| h.trim_start_matches('\u{feff}').trim().to_string())
-        .collect();
-    let found = headers.join(", ");
+    let raw = records::read(path, text).map_err(|detail| StationError::Unreadable {
+        path: p.clone(),
+        detail,
+    })?;
+    let headers = raw.headers.clone();
+    let found = columns_found(&headers);
     let locate = |given: &Option<String>,
                   names: &[&str],
-                  what: &'static str,
                   option: &'static str|
      -> Result<Option<usize>, StationError> {
         match given {
@@ -229,14 +284,11 @@ pub fn read_stations(
                 .map(Some)
                 .ok_or_else(|| StationError::NamedColumnMissing {
                     path: p.clone(),
-                    name: name.clone(),
+                    name: cut(name, ECHO_MAX),
                     option,
                     found: found.clone(),
                 }),
-            None => {
-                let _ = what;
-                Ok(find_column(&headers, names))
-            }
+            None => Ok(find_column(&headers, names)),
         }
     };
     let missing =
@@ -247,55 +299,63 @@ pub fn read_stations(
             found: found.clone(),
             option,
         };
-    let id_col = locate(
-        &columns.station,
-        STATION_NAMES,
-        "the station id",
-        "--station-col",
-    )?
-    .ok_or_else(|| missing("the station id", STATION_NAMES, "--station-col"))?;
-    let elev_col = locate(
-        &columns.elev,
-        ELEV_NAMES,
-        "the station height",
-        "--elev-col",
-    )?
-    .ok_or_else(|| missing("the station height", ELEV_NAMES, "--elev-col"))?;
-    let mut x_col = locate(&columns.x, X_NAMES, "the easting", "--x-col")?;
-    let mut y_col = locate(&columns.y, Y_NAMES, "the northing", "--y-col")?;
-    let mut implied_crs = None;
-    if x_col.is_none() && y_col.is_none() {
-        let lon = find_column(&headers, LON_NAMES);
-        let lat = find_column(&headers, LAT_NAMES);
-        if let (Some(lon), Some(lat)) = (lon, lat) {
-            x_col = Some(lon);
-            y_col = Some(lat);
-            implied_crs = Some("EPSG:4326");
-        }
+    let id_col = locate(&columns.station, STATION_NAMES, "--station-col")?
+        .ok_or_else(|| missing("the station id", STATION_NAMES, "--station-col"))?;
+    let elev_col = locate(&columns.elev, ELEV_NAMES, "--elev-col")?;
+    // A layer's points without a height column give their own z.
+    let layer_z = raw
+        .points
+        .as_ref()
+        .filter(|pts| elev_col.is_none() && pts.iter().all(|q| q.2.is_some()));
+    if elev_col.is_none() && layer_z.is_none() {
+        return Err(missing("the station height", ELEV_NAMES, "--elev-col"));
     }
-    let x_col = x_col.ok_or_else(|| missing("the easting (or longitude)", X_NAMES, "--x-col"))?;
-    let y_col = y_col.ok_or_else(|| missing("the northing (or latitude)", Y_NAMES, "--y-col"))?;
-    let input_crs = stations_crs.or(implied_crs).map(str::to_string);
+    let (x_col, y_col, input_crs) = match &raw.points {
+        // A layer in the DEM's own CRS needs no conversion (and gets no x_dem, y_dem),
+        // as a text file without --stations-crs.
+        Some(_) => (
+            None,
+            None,
+            stations_crs.map(str::to_string).or(raw
+                .crs
+                .clone()
+                .filter(|crs| !crate::dem::crs::same_crs(crs, dem_crs_wkt))),
+        ),
+        None => {
+            let mut x_col = locate(&columns.x, X_NAMES, "--x-col")?;
+            let mut y_col = locate(&columns.y, Y_NAMES, "--y-col")?;
+            let mut implied_crs = None;
+            if x_col.is_none() && y_col.is_none() {
+                let lon = find_column(&headers, LON_NAMES);
+                let lat = find_column(&headers, LAT_NAMES);
+                if let (Some(lon), Some(lat)) = (lon, lat) {
+                    x_col = Some(lon);
+                    y_col = Some(lat);
+                    implied_crs = Some("EPSG:4326");
+                }
+            }
+            let x =
+                x_col.ok_or_else(|| missing("the easting (or longitude)", X_NAMES, "--x-col"))?;
+            let y =
+                y_col.ok_or_else(|| missing("the northing (or latitude)", Y_NAMES, "--y-col"))?;
+            (
+                Some(x),
+                Some(y),
+                stations_crs.or(implied_crs).map(str::to_string),
+            )
+        }
+    };
 
     let mut stations = Vec::new();
     let mut records = Vec::new();
     let mut first_line: HashMap<String, u64> = HashMap::new();
-    for result in reader.records() {
-        let record = result.map_err(|e| {
-            let line = e.position().map(|pos| pos.line()).unwrap_or(0);
-            StationError::Value {
-                path: p.clone(),
-                line,
-                detail: format!(
-                    "the row cannot be read ({e}); every row needs as many fields as the header"
-                ),
-            }
-        })?;
-        let line = record.position().map(|pos| pos.line()).unwrap_or(0);
-        if record.iter().all(|f| f.trim().is_empty()) {
-            continue;
-        }
-        let id = record.get(id_col).unwrap_or("").trim().to_string();
+    for (k, (line, record)) in raw.rows.iter().enumerate() {
+        let line = *line;
+        let id = record
+            .get(id_col)
+            .map(|s| s.trim())
+            .unwrap_or("")
+            .to_string();
         if id.is_empty() {
             return Err(StationError::Value {
                 path: p.clone(),
@@ -310,15 +370,41 @@ pub fn read_stations(
             return Err(StationError::Duplicate {
                 path: p.clone(),
                 line,
-                id,
+                id: cut(&id, ECHO_MAX),
                 first,
             });
         }
         first_line.insert(id.clone(), line);
-        let field = |col: usize| record.get(col).unwrap_or("");
-        let x = parse_number(path, line, &id, &headers[x_col], field(x_col))?;
-        let y = parse_number(path, line, &id, &headers[y_col], field(y_col))?;
-        let elev = parse_number(path, line, &id, &headers[elev_col], field(elev_col))?;
+        let field = |col: usize| record.get(col).map(String::as_str).unwrap_or("");
+        let (x, y) = match (&raw.points, x_col, y_col) {
+            (Some(pts), _, _) => (pts[k].0, pts[k].1),
+            (None, Some(xc), Some(yc)) => (
+                parse_number(path, line, &id, &headers[xc], field(xc))?,
+                parse_number(path, line, &id, &headers[yc], field(yc))?,
+            ),
+            _ => unreachable!("text tables have x and y columns"),
+        };
+        let elev = match (elev_col, layer_z) {
+            (Some(ec), _) => parse_number(path, line, &id, &headers[ec], field(ec))?,
+            (None, Some(pts)) => pts[k].2.expect("checked: every point has z"),
+            (None, None) => unreachable!("a height is found above"),
+        };
+        if !(HEIGHT_RANGE_M.0..=HEIGHT_RANGE_M.1).contains(&elev) {
+            return Err(StationError::Value {
+                path: p.clone(),
+                line,
+                detail: format!(
+                    "station {}: the height {} m is outside the Earth's relief ({} to {} m); check the value and its unit (metres)",
+                    cut(&id, ECHO_MAX),
+                    match elev_col {
+                        Some(ec) => cut(field(ec).trim(), ECHO_MAX),
+                        None => format!("{elev:e}"),
+                    },
+                    HEIGHT_RANGE_M.0,
+                    HEIGHT_RANGE_M.1
+                ),
+            });
+        }
         stations.push(Station {
             id,
             x,
@@ -327,7 +413,7 @@ pub fn read_stations(
             line,
             input_xy: (x, y),
         });
-        records.push(record.iter().map(str::to_string).collect());
+        records.push(record.clone());
     }
     if stations.is_empty() {
         return Err(StationError::Empty { path: p });
@@ -340,23 +426,32 @@ pub fn read_stations(
             }
         })?;
     }
+    let used_columns = [Some(id_col), x_col, y_col, elev_col]
+        .into_iter()
+        .flatten()
+        .collect();
     Ok(StationTable {
         path: path.to_path_buf(),
         headers,
         stations,
         records,
         input_crs,
+        used_columns,
+        looked_up: LookedUp::default(),
     })
 }
 
 /// Converts station coordinates from `from` (EPSG code, PROJ string or WKT) to the DEM's CRS.
 fn transform_stations(stations: &mut [Station], from: &str, to_wkt: &str) -> Result<(), String> {
+    // The CRS as messages name it (a WKT definition can be long).
+    let name = cut(from, ECHO_MAX);
+    let (from, definition) = (name.as_str(), from);
     if to_wkt.is_empty() {
         return Err(format!(
             "the stations are in {from} but the DEM has no CRS to convert them to; give the DEM a CRS"
         ));
     }
-    let transform = Transform::between(from, to_wkt, from, "the DEM's CRS").map_err(|e| {
+    let transform = Transform::between(definition, to_wkt, from, "the DEM's CRS").map_err(|e| {
         format!(
             "{e}; give an EPSG code such as EPSG:32633 or a valid PROJ string with --stations-crs"
         )
@@ -388,7 +483,14 @@ mod tests {
     #[test]
     fn plain_header_works() {
         let f = write("station,x,y,elev\nA1,100,200,300.5\nA2,110,210,301\n");
-        let t = read_stations(f.path(), &ColumnChoice::default(), None, "").unwrap();
+        let t = read_stations(
+            f.path(),
+            &ColumnChoice::default(),
+            None,
+            "",
+            &TextOptions::default(),
+        )
+        .unwrap();
         assert_eq!(t.stations.len(), 2);
         assert_eq!(t.stations[0].id, "A1");
         assert_eq!(t.stations[0].elev, 300.5);
@@ -398,7 +500,14 @@ mod tests {
     #[test]
     fn common_names_are_found_case_insensitively() {
         let f = write("Name,Easting,Northing,Elevation,gravity\nB,1,2,3,978000\n");
-        let t = read_stations(f.path(), &ColumnChoice::default(), None, "").unwrap();
+        let t = read_stations(
+            f.path(),
+            &ColumnChoice::default(),
+            None,
+            "",
+            &TextOptions::default(),
+        )
+        .unwrap();
         assert_eq!(t.stations[0].x, 1.0);
         assert_eq!(t.stations[0].elev, 3.0);
     }
@@ -406,31 +515,55 @@ mod tests {
     #[test]
     fn bad_values_name_the_line() {
         let f = write("station,x,y,elev\nA,1,2,3\nB,1,2,abc\n");
-        let e = read_stations(f.path(), &ColumnChoice::default(), None, "")
-            .unwrap_err()
-            .to_string();
+        let e = read_stations(
+            f.path(),
+            &ColumnChoice::default(),
+            None,
+            "",
+            &TextOptions::default(),
+        )
+        .unwrap_err()
+        .to_string();
         assert!(
             e.contains("line 3") && e.contains("station B") && e.contains("abc"),
             "{e}"
         );
         let f = write("station,x,y,elev\nA,1,2,NaN\n");
-        let e = read_stations(f.path(), &ColumnChoice::default(), None, "")
-            .unwrap_err()
-            .to_string();
+        let e = read_stations(
+            f.path(),
+            &ColumnChoice::default(),
+            None,
+            "",
+            &TextOptions::default(),
+        )
+        .unwrap_err()
+        .to_string();
         assert!(e.contains("not a finite number"), "{e}");
         let f = write("station,x,y,elev\nA,1,,3\n");
-        let e = read_stations(f.path(), &ColumnChoice::default(), None, "")
-            .unwrap_err()
-            .to_string();
+        let e = read_stations(
+            f.path(),
+            &ColumnChoice::default(),
+            None,
+            "",
+            &TextOptions::default(),
+        )
+        .unwrap_err()
+        .to_string();
         assert!(e.contains("'y' is empty"), "{e}");
     }
 
     #[test]
     fn missing_column_lists_what_was_found() {
         let f = write("station,x,y,height_above\nA,1,2,3\n");
-        let e = read_stations(f.path(), &ColumnChoice::default(), None, "")
-            .unwrap_err()
-            .to_string();
+        let e = read_stations(
+            f.path(),
+            &ColumnChoice::default(),
+            None,
+            "",
+            &TextOptions::default(),
+        )
+        .unwrap_err()
+        .to_string();
         assert!(
             e.contains("columns found: station, x, y, height_above") && e.contains("--elev-col"),
             "{e}"
@@ -440,9 +573,15 @@ mod tests {
     #[test]
     fn duplicates_are_refused() {
         let f = write("station,x,y,elev\nA,1,2,3\nB,1,2,3\nA,5,5,5\n");
-        let e = read_stations(f.path(), &ColumnChoice::default(), None, "")
-            .unwrap_err()
-            .to_string();
+        let e = read_stations(
+            f.path(),
+            &ColumnChoice::default(),
+            None,
+            "",
+            &TextOptions::default(),
+        )
+        .unwrap_err()
+        .to_string();
         assert!(e.contains("line 4") && e.contains("first on line 2"), "{e}");
     }
 }

@@ -3,7 +3,6 @@
 
 use super::files::Partial;
 use crate::dem::Dem;
-use anyhow::Context;
 use gdal::raster::{Buffer, RasterCreationOptions};
 use gdal::spatial_ref::SpatialRef;
 use gdal::{DriverManager, Metadata};
@@ -42,19 +41,18 @@ pub fn write_grid(
 ) -> anyhow::Result<()> {
     assert_eq!(values.len(), grid.cols * grid.rows, "one value per cell");
     let partial = Partial::start(path, ".tif")?;
-    {
+    crate::dem::read::catch_gdal_messages();
+    let written = (|| -> gdal::errors::Result<()> {
         let driver = DriverManager::get_driver_by_name("GTiff")?;
         let options =
             RasterCreationOptions::from_iter(["COMPRESS=DEFLATE", "PREDICTOR=3", "TILED=YES"]);
-        let mut ds = driver
-            .create_with_band_type_with_options::<f32, _>(
-                partial.temp_path(),
-                grid.cols,
-                grid.rows,
-                1,
-                &options,
-            )
-            .with_context(|| format!("{}: GDAL cannot create the GeoTIFF", path.display()))?;
+        let mut ds = driver.create_with_band_type_with_options::<f32, _>(
+            partial.temp_path(),
+            grid.cols,
+            grid.rows,
+            1,
+            &options,
+        )?;
         ds.set_geo_transform(&[grid.x_left, grid.dx, 0.0, grid.y_top, 0.0, -grid.dy])?;
         if !grid.crs.is_empty() {
             ds.set_spatial_ref(&SpatialRef::from_definition(&grid.crs)?)?;
@@ -77,6 +75,14 @@ pub fn write_grid(
         let mut buffer = Buffer::new((grid.cols, grid.rows), data);
         band.write((0, 0), (grid.cols, grid.rows), &mut buffer)?;
         ds.flush_cache()?;
+        Ok(())
+    })();
+    if written.is_err() {
+        anyhow::bail!(
+            "{}: the GeoTIFF cannot be written ({}); check the disk space and the folder",
+            path.display(),
+            crate::dem::read::gdal_says("GDAL gives no reason")
+        );
     }
     partial.commit()
 }

@@ -6,5 +6,7 @@
 pub mod files;
 pub mod geotiff;
 pub mod plot;
+pub mod record;
 pub mod station_table;
 pub mod table;
+pub mod vector;

@@ -26,7 +26,7 @@
 //! the CIELAB colour difference (CIE76) of successive sixteenths of the scale stays
 //! within a factor 1.7 of each other.
 
-use super::files::{check_folder, write_atomically, Partial};
+use super::files::{check_writable, write_atomically, Partial};
 use crate::analysis::checks::quantile;
 use anyhow::{bail, Context};
 use plotters::coord::Shift;
@@ -190,7 +190,7 @@ pub fn check_plot_target(path: &Path, option: &str, png_only: bool) -> anyhow::R
             path.display()
         ),
     };
-    check_folder(path, option)?;
+    check_writable(path, option)?;
     Ok(PlotTarget {
         path: path.to_path_buf(),
         format,

@@ -5,7 +5,7 @@
 //!
 //! | group | columns | when |
 //! |---|---|---|
-//! | fixed | `station`, `x`, `y`, `elev_m`, `dem_elev_m`, `elev_minus_dem_m`, `tc_mgal`, `tc_inner_mgal`, `tc_near_mgal`, `tc_mid_mgal`, `tc_far_mgal`, `coverage` | always |
+//! | fixed | `station`, `x`, `y`, `lon`, `lat`, `elev_m`, `dem_elev_m`, `elev_minus_dem_m`, `tc_mgal`, `tc_inner_mgal`, `tc_near_mgal`, `tc_mid_mgal`, `tc_far_mgal`, `coverage` | always |
 //! | converted coordinates | `x_dem`, `y_dem` | `--stations-crs` (or lon/lat columns) |
 //! | water | `tc_water_mgal` | `--water-density` |
 //! | field inner zone | `tc_inner_field_mgal`, `tc_inner_dem_mgal` | `--field-inner-col` |
@@ -13,6 +13,7 @@
 //! | several DEMs | `dems_inner`, `dems_near`, `dems_mid`, `dems_far`, `coverage_dem1`, ... | more than one DEM read |
 //! | density | `density_kg_m3` | `--density-col` or `--density-raster` |
 //! | reduction | `latitude_deg`, `ellipsoidal_height_m` (with `--undulation-col`), `observed_gravity_mgal`, `normal_gravity_mgal`, `free_air_corr_mgal`, `atmos_corr_mgal`, `bouguer_corr_mgal`, `free_air_anomaly_mgal`, `simple_bouguer_anomaly_mgal`, `complete_bouguer_anomaly_mgal` | a gravity column |
+//! | the station file's own | every column ringsum did not read, unchanged (`input_NAME` where NAME is one of ringsum's) | unless `--drop-station-columns` |
 //!
 //! Corrections have 4 decimals (mGal). The zone-group parts (and the water's) are rounded
 //! so that they add up to `tc_mgal` exactly, the zone columns so that they add up to
@@ -39,25 +40,32 @@ pub fn zone_columns(plan: &ZonePlan) -> Vec<(String, Vec<usize>)> {
 }
 
 /// The columns every per-station table starts with.
-pub const LEADING_COLUMNS: [&str; 6] = [
+pub const LEADING_COLUMNS: [&str; 8] = [
     "station",
     "x",
     "y",
+    "lon",
+    "lat",
     "elev_m",
     "dem_elev_m",
     "elev_minus_dem_m",
 ];
 
-/// The station columns every station table starts with, and the converted coordinates.
+/// The station columns every station table starts with, the converted coordinates, and
+/// the station file's own other columns, carried to the end.
 pub struct StationColumns {
     /// Whether the file's coordinates were converted (x_dem, y_dem are written).
     pub converted: bool,
     /// Decimals of the converted coordinates (more for degrees).
     pub dem_decimals: u8,
+    /// The station file's other columns carried to the output (indices in the file).
+    pub carried: Vec<usize>,
 }
 
 impl StationColumns {
-    pub fn of(inputs: &Inputs) -> StationColumns {
+    /// The columns of `inputs`' stations; the file's other columns are carried unless
+    /// `carry` is false.
+    pub fn of(inputs: &Inputs, carry: bool) -> StationColumns {
         StationColumns {
             converted: inputs.table().input_crs.is_some(),
             dem_decimals: if inputs.dems.base_kind == crate::dem::GridKind::Projected {
@@ -66,17 +74,73 @@ impl StationColumns {
                 // 1e-8 degree is about a millimetre.
                 8
             },
+            carried: if carry {
+                inputs.table().other_columns()
+            } else {
+                Vec::new()
+            },
         }
     }
 
-    /// `station`, `x`, `y` of station `i` as in the file.
+    /// `station`, `x`, `y` of station `i` as in the file, and its longitude and latitude
+    /// on the finest DEM's datum.
     pub fn leading(&self, inputs: &Inputs, i: usize) -> Vec<Cell> {
         let s = &inputs.table().stations[i];
+        let (lon, lat) = inputs.station_lon_lat[i];
         vec![
             Cell::text(&s.id),
             Cell::trimmed(s.input_xy.0, 8),
             Cell::trimmed(s.input_xy.1, 8),
+            Cell::num(lon, 8),
+            Cell::num(lat, 8),
         ]
+    }
+
+    /// The names of the carried columns, given `taken` (the table's own columns): a name
+    /// that is one of them gets the prefix `input_`.
+    pub fn carried_headers(&self, inputs: &Inputs, taken: &[String]) -> Vec<String> {
+        let table = inputs.table();
+        self.carried
+            .iter()
+            .map(|&c| {
+                let h = &table.headers[c];
+                if taken.iter().any(|t| t.eq_ignore_ascii_case(h)) {
+                    format!("input_{h}")
+                } else {
+                    h.clone()
+                }
+            })
+            .collect()
+    }
+
+    /// The carried fields of station `i`, unchanged.
+    pub fn carried_cells(&self, inputs: &Inputs, i: usize) -> Vec<Cell> {
+        let record = &inputs.table().records[i];
+        self.carried
+            .iter()
+            .map(|&c| Cell::text(record.get(c).cloned().unwrap_or_default()))
+            .collect()
+    }
+
+    /// Where each station is, for the GIS formats: as in the file (in its CRS) and in
+    /// longitude and latitude; `repeat` rows per station.
+    pub fn points(&self, inputs: &Inputs, repeat: usize) -> super::table::RowPoints {
+        let table = inputs.table();
+        let crs = table
+            .input_crs
+            .clone()
+            .unwrap_or_else(|| inputs.dems.base_crs.clone());
+        let mut points = super::table::RowPoints {
+            crs,
+            ..Default::default()
+        };
+        for (s, &ll) in table.stations.iter().zip(&inputs.station_lon_lat) {
+            for _ in 0..repeat {
+                points.xy.push(s.input_xy);
+                points.lon_lat.push(ll);
+            }
+        }
+        points
     }
 
     /// `x_dem`, `y_dem` of station `i` when converted.
@@ -100,8 +164,9 @@ pub fn correct_table(
     plan: &ZonePlan,
     results: &[PointTc],
     reduction: Option<(&[ReductionTerms], bool)>,
+    carry: bool,
 ) -> anyhow::Result<Table> {
-    let stations = StationColumns::of(inputs);
+    let stations = StationColumns::of(inputs, carry);
     let zones = zone_columns(plan);
     let water = inputs.water.is_some();
     let field = inputs.field_inner.is_some();
@@ -160,8 +225,11 @@ pub fn correct_table(
             .map(|s| s.to_string()),
         );
     }
+    let carried = stations.carried_headers(inputs, &headers);
+    headers.extend(carried);
     let mut table = Table::new(&headers);
     table.check_unique_headers("rename the plan's ring so that its column differs")?;
+    table.points = Some(stations.points(inputs, 1));
     let disc = PI * plan_outer(plan).powi(2);
     for (i, r) in results.iter().enumerate() {
         let s = &inputs.table().stations[i];
@@ -222,6 +290,7 @@ pub fn correct_table(
         if let Some((terms, undulation)) = reduction {
             row.extend(reduction_cells(&terms[i], undulation, tc_rounded));
         }
+        row.extend(stations.carried_cells(inputs, i));
         table.push(&s.id, row);
     }
     Ok(table)

@@ -122,6 +122,17 @@ pub fn parts_adding_up(total: f64, parts: &[f64], decimals: i32) -> (f64, Vec<f6
     )
 }
 
+/// Where each row of a table is (its station), for the GIS formats.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct RowPoints {
+    /// Position of each row in `crs`.
+    pub xy: Vec<(f64, f64)>,
+    /// The CRS of `xy`, as WKT or another definition GDAL reads.
+    pub crs: String,
+    /// Longitude and latitude of each row, degrees.
+    pub lon_lat: Vec<(f64, f64)>,
+}
+
 /// A table with a header.
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct Table {
@@ -129,6 +140,8 @@ pub struct Table {
     pub rows: Vec<Vec<Cell>>,
     /// What each row is, for messages (a station id): `row_names[i]` names row `i`.
     pub row_names: Vec<String>,
+    /// Where each row is (tables of stations), for GeoPackage and GeoJSON.
+    pub points: Option<RowPoints>,
 }
 
 impl Table {
@@ -138,6 +151,7 @@ impl Table {
             headers: headers.iter().map(|h| h.as_ref().to_string()).collect(),
             rows: Vec::new(),
             row_names: Vec::new(),
+            points: None,
         }
     }
 
@@ -163,24 +177,32 @@ impl Table {
         Ok(())
     }
 
+    /// Refuses a number that is not finite (no NaN reaches an output), naming where.
+    pub fn check_finite(&self) -> anyhow::Result<()> {
+        for (r, row) in self.rows.iter().enumerate() {
+            for (c, cell) in row.iter().enumerate() {
+                if let Err(v) = cell.format() {
+                    anyhow::bail!(
+                        "internal error: {} of {} is not finite ({v}); please report this with the input that caused it",
+                        self.headers[c],
+                        self.row_names.get(r).map(String::as_str).unwrap_or("a row")
+                    );
+                }
+            }
+        }
+        Ok(())
+    }
+
     /// The table as CSV.
     pub fn to_csv(&self) -> anyhow::Result<Vec<u8>> {
+        self.check_finite()?;
         let mut writer = csv::Writer::from_writer(Vec::new());
         writer.write_record(&self.headers)?;
-        for (r, row) in self.rows.iter().enumerate() {
+        for row in &self.rows {
             let fields: Vec<String> = row
                 .iter()
-                .enumerate()
-                .map(|(c, cell)| {
-                    cell.format().map_err(|v| {
-                        anyhow::anyhow!(
-                            "internal error: {} of {} is not finite ({v}); please report this with the input that caused it",
-                            self.headers[c],
-                            self.row_names.get(r).map(String::as_str).unwrap_or("a row")
-                        )
-                    })
-                })
-                .collect::<anyhow::Result<_>>()?;
+                .map(|cell| cell.format().unwrap_or_default())
+                .collect();
             writer.write_record(&fields)?;
         }
         writer.into_inner().map_err(|e| anyhow::anyhow!("{e}"))
@@ -188,15 +210,17 @@ impl Table {
 
     /// Writes the table to its target.
     pub fn write(&self, target: &TableTarget) -> anyhow::Result<()> {
-        let bytes = self.to_csv()?;
         match target {
             TableTarget::Stdout => {
+                let bytes = self.to_csv()?;
                 let mut out = std::io::stdout().lock();
                 out.write_all(&bytes)?;
                 out.flush()?;
                 Ok(())
             }
-            TableTarget::Csv(path) => write_atomically(path, &bytes),
+            TableTarget::Csv(path) => write_atomically(path, &self.to_csv()?),
+            TableTarget::GeoPackage(path) => super::vector::write_geopackage(path, self),
+            TableTarget::GeoJson(path) => super::vector::write_geojson(path, self),
         }
     }
 }

@@ -5,6 +5,8 @@
 //! Each integration test binary uses a different part of this module.
 #![allow(dead_code)]
 
+pub mod bad_input;
+
 use ringsum::dem::Dem;
 use ringsum::output::geotiff::write_dem;
 use std::path::{Path, PathBuf};
