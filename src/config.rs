@@ -486,13 +486,13 @@ impl RunSettings {
     pub fn from_args(args: &RunArgs) -> anyhow::Result<RunSettings> {
         crate::engine::run::check_threads(args.threads)?;
         if let Some(p) = &args.record {
-            crate::output::files::check_extension(
+            crate::paths::check_extension(
                 p,
                 "--record",
                 &["json"],
                 "the run record is JSON; give a path ending in .json",
             )?;
-            crate::output::files::check_writable(p, "--record")?;
+            crate::paths::check_writable(p, "--record")?;
         }
         Ok(RunSettings {
             threads: args.threads,

@@ -51,6 +51,8 @@ pub mod inputs;
 #[cfg(feature = "io")]
 pub mod output;
 #[cfg(feature = "io")]
+pub mod paths;
+#[cfg(feature = "io")]
 pub mod progress;
 #[cfg(feature = "io")]
 pub mod results;
