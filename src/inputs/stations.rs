@@ -474,6 +474,18 @@ mod tests {
     use super::*;
     use std::io::Write;
 
+    /// Reads a station file of this text with the default options.
+    fn read_text(text: &str) -> Result<StationTable, StationError> {
+        let f = write(text);
+        read_stations(
+            f.path(),
+            &ColumnChoice::default(),
+            None,
+            "",
+            &TextOptions::default(),
+        )
+    }
+
     fn write(text: &str) -> tempfile::NamedTempFile {
         let mut f = tempfile::NamedTempFile::new().unwrap();
         f.write_all(text.as_bytes()).unwrap();
@@ -482,15 +494,7 @@ mod tests {
 
     #[test]
     fn plain_header_works() {
-        let f = write("station,x,y,elev\nA1,100,200,300.5\nA2,110,210,301\n");
-        let t = read_stations(
-            f.path(),
-            &ColumnChoice::default(),
-            None,
-            "",
-            &TextOptions::default(),
-        )
-        .unwrap();
+        let t = read_text("station,x,y,elev\nA1,100,200,300.5\nA2,110,210,301\n").unwrap();
         assert_eq!(t.stations.len(), 2);
         assert_eq!(t.stations[0].id, "A1");
         assert_eq!(t.stations[0].elev, 300.5);
@@ -499,71 +503,35 @@ mod tests {
 
     #[test]
     fn common_names_are_found_case_insensitively() {
-        let f = write("Name,Easting,Northing,Elevation,gravity\nB,1,2,3,978000\n");
-        let t = read_stations(
-            f.path(),
-            &ColumnChoice::default(),
-            None,
-            "",
-            &TextOptions::default(),
-        )
-        .unwrap();
+        let t = read_text("Name,Easting,Northing,Elevation,gravity\nB,1,2,3,978000\n").unwrap();
         assert_eq!(t.stations[0].x, 1.0);
         assert_eq!(t.stations[0].elev, 3.0);
     }
 
     #[test]
     fn bad_values_name_the_line() {
-        let f = write("station,x,y,elev\nA,1,2,3\nB,1,2,abc\n");
-        let e = read_stations(
-            f.path(),
-            &ColumnChoice::default(),
-            None,
-            "",
-            &TextOptions::default(),
-        )
-        .unwrap_err()
-        .to_string();
+        let e = read_text("station,x,y,elev\nA,1,2,3\nB,1,2,abc\n")
+            .unwrap_err()
+            .to_string();
         assert!(
             e.contains("line 3") && e.contains("station B") && e.contains("abc"),
             "{e}"
         );
-        let f = write("station,x,y,elev\nA,1,2,NaN\n");
-        let e = read_stations(
-            f.path(),
-            &ColumnChoice::default(),
-            None,
-            "",
-            &TextOptions::default(),
-        )
-        .unwrap_err()
-        .to_string();
+        let e = read_text("station,x,y,elev\nA,1,2,NaN\n")
+            .unwrap_err()
+            .to_string();
         assert!(e.contains("not a finite number"), "{e}");
-        let f = write("station,x,y,elev\nA,1,,3\n");
-        let e = read_stations(
-            f.path(),
-            &ColumnChoice::default(),
-            None,
-            "",
-            &TextOptions::default(),
-        )
-        .unwrap_err()
-        .to_string();
+        let e = read_text("station,x,y,elev\nA,1,,3\n")
+            .unwrap_err()
+            .to_string();
         assert!(e.contains("'y' is empty"), "{e}");
     }
 
     #[test]
     fn missing_column_lists_what_was_found() {
-        let f = write("station,x,y,height_above\nA,1,2,3\n");
-        let e = read_stations(
-            f.path(),
-            &ColumnChoice::default(),
-            None,
-            "",
-            &TextOptions::default(),
-        )
-        .unwrap_err()
-        .to_string();
+        let e = read_text("station,x,y,height_above\nA,1,2,3\n")
+            .unwrap_err()
+            .to_string();
         assert!(
             e.contains("columns found: station, x, y, height_above") && e.contains("--elev-col"),
             "{e}"
@@ -572,16 +540,9 @@ mod tests {
 
     #[test]
     fn duplicates_are_refused() {
-        let f = write("station,x,y,elev\nA,1,2,3\nB,1,2,3\nA,5,5,5\n");
-        let e = read_stations(
-            f.path(),
-            &ColumnChoice::default(),
-            None,
-            "",
-            &TextOptions::default(),
-        )
-        .unwrap_err()
-        .to_string();
+        let e = read_text("station,x,y,elev\nA,1,2,3\nB,1,2,3\nA,5,5,5\n")
+            .unwrap_err()
+            .to_string();
         assert!(e.contains("line 4") && e.contains("first on line 2"), "{e}");
     }
 }
